@@ -1,0 +1,65 @@
+"""Per-value condition flags, carried as a ``uint16`` array beside every result.
+
+A flag either withholds the temperature (the value is NaN: no invented number)
+or qualifies it (the value stands, with a caveat the user must see).
+"""
+
+from __future__ import annotations
+
+import enum
+from collections.abc import Iterable
+
+import numpy as np
+import numpy.typing as npt
+
+__all__ = ["Flag", "FLAG_DTYPE", "WITHHOLDING", "flag_names", "empty_flags"]
+
+FLAG_DTYPE = np.uint16
+
+
+class Flag(enum.IntFlag):
+    """Conditions a converted value can carry; names are the contract strings."""
+
+    OUT_OF_RANGE = 1 << 0
+    """Outside the equation's range (IEC 60751: −200…850 °C); no temperature."""
+    INVALID_INPUT = 1 << 1
+    """Not a finite, positive resistance after corrections; no temperature."""
+    OUTSIDE_CLASS_RANGE = 1 << 2
+    """The tolerance class does not apply at this temperature."""
+    NO_SENSOR_SPEC = 1 << 3
+    """No tolerance class or calibration given: the uncertainty omits the sensor."""
+    CALIBRATION_EXTRAPOLATED = 1 << 4
+    """Outside the span of the calibration points the coefficients came from."""
+    LARGE_SELF_HEATING = 1 << 5
+    """The self-heating correction exceeds 0.1 K (common practice, no published source)."""
+    LEADS_EXCEED_SENSOR = 1 << 6
+    """The lead correction is larger than what was measured; no temperature."""
+
+    @property
+    def label(self) -> str:
+        return (self.name or "").lower()
+
+
+#: flags that mean the value is withheld (NaN) rather than qualified
+WITHHOLDING = Flag.OUT_OF_RANGE | Flag.INVALID_INPUT | Flag.LEADS_EXCEED_SENSOR
+
+
+def empty_flags(shape: int | tuple[int, ...]) -> npt.NDArray[np.uint16]:
+    """A zeroed flag array of the given shape."""
+    return np.zeros(shape, dtype=FLAG_DTYPE)
+
+
+def flag_names(bits: int | np.integer) -> list[str]:
+    """The contract strings of the flags set in ``bits``, in definition order."""
+    value = int(bits)
+    return [f.label for f in Flag if value & f]
+
+
+def combine(arrays: Iterable[npt.NDArray[np.uint16]]) -> npt.NDArray[np.uint16]:
+    """Bitwise OR of several flag arrays of one shape."""
+    out: npt.NDArray[np.uint16] | None = None
+    for a in arrays:
+        out = a.copy() if out is None else out | a
+    if out is None:
+        raise ValueError("combine() needs at least one array")
+    return out
