@@ -56,6 +56,9 @@ class CvdCurve:
     name: str = "IEC 60751"
 
     def __post_init__(self) -> None:
+        for key in ("r0_ohm", "a", "b", "c", "t_min_c", "t_max_c"):
+            if not np.isfinite(getattr(self, key)):
+                raise ValueError(f"{key} must be a finite number, got {getattr(self, key)!r}")
         if not (np.isfinite(self.r0_ohm) and self.r0_ohm > 0):
             raise ValueError(f"R0 must be a positive resistance, got {self.r0_ohm!r} ohm")
         if not (np.isfinite(self.a) and self.a > 0):
@@ -64,7 +67,9 @@ class CvdCurve:
             raise ValueError(f"range {self.t_min_c}…{self.t_max_c} °C must contain 0 °C")
         # the curve must rise monotonically over its whole range or the inverse is ambiguous
         grid = np.linspace(self.t_min_c, self.t_max_c, 2101)
-        if np.any(slope(grid, self) <= 0):
+        with np.errstate(all="ignore"):
+            rising = bool(np.all(slope(grid, self) > 0))
+        if not rising:
             raise ValueError(
                 f"coefficients A={self.a}, B={self.b}, C={self.c} do not give a rising curve "
                 f"over {self.t_min_c}…{self.t_max_c} °C"
@@ -137,8 +142,10 @@ def temperature(
     flags = np.zeros(n, dtype=FLAG_DTYPE)
 
     a, b, c, r0 = curve.a, curve.b, curve.c, curve.r0_ohm
-    x_min = float(resistance(curve.t_min_c, curve)) / r0 - 1.0
-    x_max = float(resistance(curve.t_max_c, curve)) / r0 - 1.0
+    # the range is checked on the resistance itself, so that R(t_min) and
+    # R(t_max) are inside for any R0, whatever the rounding of R/R0
+    r_min = float(resistance(curve.t_min_c, curve))
+    r_max = float(resistance(curve.t_max_c, curve))
     a2 = a * a
     b4 = 4.0 * b
     inv_r0 = 1.0 / r0
@@ -151,10 +158,11 @@ def temperature(
             stop = min(start + _CHUNK, n)
             m = stop - start
             xs, ts = x[:m], tmp[:m]
+            rs = flat[start:stop]
             out = t_out[start:stop]
             # x = W − 1, then t = 2x / (A + sqrt(A² + 4Bx)): exact for t ≥ 0,
             # and the quadratic seed for t < 0
-            np.multiply(flat[start:stop], inv_r0, out=xs)
+            np.multiply(rs, inv_r0, out=xs)
             xs -= 1.0
             np.multiply(xs, b4, out=ts)
             ts += a2
@@ -162,15 +170,15 @@ def temperature(
             ts += a
             np.add(xs, xs, out=out)
             out /= ts
+            good = (rs >= r_min) & (rs <= r_max)
             if c != 0.0:
-                neg = np.flatnonzero(xs < 0.0)
+                neg = np.flatnonzero((xs < 0.0) & good)
                 if neg.size:
                     out[neg] = _newton_below_zero(out[neg], xs[neg], a, b, c)
-            bad = ~((xs >= x_min) & (xs <= x_max))
-            if bad.any():
-                idx = np.flatnonzero(bad)
+            if not good.all():
+                idx = np.flatnonzero(~good)
                 out[idx] = np.nan
-                rv = flat[start:stop][idx]
+                rv = rs[idx]
                 invalid = ~(np.isfinite(rv) & (rv > 0.0))
                 flags[start + idx] = np.where(
                     invalid, FLAG_DTYPE(Flag.INVALID_INPUT), FLAG_DTYPE(Flag.OUT_OF_RANGE)
@@ -189,7 +197,7 @@ def _newton_below_zero(t: FloatArray, x: FloatArray, a: float, b: float, c: floa
         df = a + t * (b2 + t * (c300 + t * c4))
         step = f / df
         t = t - step
-        if not np.nanmax(np.abs(step)) > _NEWTON_TOL_C:
+        if not np.max(np.abs(step)) > _NEWTON_TOL_C:
             break
     return t
 
