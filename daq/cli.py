@@ -282,7 +282,7 @@ def _add_bench(sub: argparse._SubParsersAction[_Parser]) -> None:
         ),
     )
     p.add_argument("--json", action="store_true", help="print JSON")
-    p.add_argument("--quick", action="store_true", help="smaller arrays, fewer repeats (a smoke run)")
+    p.add_argument("--quick", action="store_true", help="fewer repeats (a smoke run)")
     p.set_defaults(func=_cmd_bench)
 
 
