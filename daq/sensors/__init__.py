@@ -7,13 +7,38 @@ from __future__ import annotations
 
 from daq.sensors.cvd import IEC_60751, CvdCurve, resistance, slope, temperature
 from daq.sensors.flags import Flag, flag_names
+from daq.sensors.leads import Conductor, Leads
+from daq.sensors.measurement import (
+    AdcSpec,
+    Calibration,
+    Conversion,
+    Excitation,
+    MeasurementChain,
+    MeterSpec,
+    SensorSpec,
+)
+from daq.sensors.tolerance import ToleranceClass, tolerance_class
+from daq.sensors.uncertainty import Budget, Contribution
 
 __all__ = [
+    "AdcSpec",
+    "Budget",
+    "Calibration",
+    "Conductor",
+    "Contribution",
+    "Conversion",
     "CvdCurve",
-    "IEC_60751",
+    "Excitation",
     "Flag",
+    "IEC_60751",
+    "Leads",
+    "MeasurementChain",
+    "MeterSpec",
+    "SensorSpec",
+    "ToleranceClass",
     "flag_names",
     "resistance",
     "slope",
     "temperature",
+    "tolerance_class",
 ]
