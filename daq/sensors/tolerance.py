@@ -54,6 +54,10 @@ class ToleranceClass:
 # elements. Values from memory of the standard's tables; tests check them
 # against the same published figures.
 _TOL = {"0.1": (0.10, 0.0017), "0.15": (0.15, 0.0020), "0.3": (0.30, 0.0050), "0.6": (0.60, 0.0100)}
+# resistor classes (table 3): the bare element's range
+_W_RESISTOR_RANGE = {"0.1": (-100.0, 350.0), "0.15": (-100.0, 450.0), "0.3": (-196.0, 660.0), "0.6": (-196.0, 660.0)}
+_F_RESISTOR_RANGE = {"0.1": (0.0, 150.0), "0.15": (-30.0, 300.0), "0.3": (-50.0, 500.0), "0.6": (-50.0, 600.0)}
+# thermometer classes (table 4): the assembled thermometer's range, by element inside
 _WIRE_RANGE = {"0.1": (-50.0, 250.0), "0.15": (-100.0, 450.0), "0.3": (-196.0, 600.0), "0.6": (-196.0, 600.0)}
 _FILM_RANGE = {"0.1": (0.0, 150.0), "0.15": (-30.0, 300.0), "0.3": (-50.0, 500.0), "0.6": (-50.0, 600.0)}
 _THERMOMETER = {"AA": "0.1", "A": "0.15", "B": "0.3", "C": "0.6"}
@@ -62,8 +66,8 @@ _THERMOMETER = {"AA": "0.1", "A": "0.15", "B": "0.3", "C": "0.6"}
 def _build() -> dict[tuple[str, Element], ToleranceClass]:
     out: dict[tuple[str, Element], ToleranceClass] = {}
     for key, (a, b) in _TOL.items():
-        out[(f"W{key}", "wire")] = ToleranceClass(f"W{key}", a, b, *_WIRE_RANGE[key], "wire")
-        out[(f"F{key}", "film")] = ToleranceClass(f"F{key}", a, b, *_FILM_RANGE[key], "film")
+        out[(f"W{key}", "wire")] = ToleranceClass(f"W{key}", a, b, *_W_RESISTOR_RANGE[key], "wire")
+        out[(f"F{key}", "film")] = ToleranceClass(f"F{key}", a, b, *_F_RESISTOR_RANGE[key], "film")
     for name, key in _THERMOMETER.items():
         a, b = _TOL[key]
         out[(name, "wire")] = ToleranceClass(name, a, b, *_WIRE_RANGE[key], "wire")
