@@ -96,7 +96,9 @@ def tolerance_class(name: str, element: str | None = None) -> ToleranceClass:
         InputError: an unknown class or element, or a resistor class whose
             letter contradicts the element given.
     """
-    key = name.strip().upper()
+    key = name.strip().upper().replace(" ", "")  # IEC 60751 prints "F 0.3"
+    if element is not None:
+        element = element.strip().lower()
     if element is not None and element not in ("film", "wire"):
         raise InputError(f"element must be 'film' or 'wire', got {element!r}")
     if key in _THERMOMETER:

@@ -51,21 +51,11 @@ RESISTOR_CLASSES = [
     ("F0.6", "film", -50.0, 600.0, *AB["0.6"]),
 ]
 
-W_RANGE_REASON = (
-    "tolerance.py gives the wire-wound resistor classes the thermometer ranges "
-    "(_WIRE_RANGE is shared): W0.1 -50…250 °C instead of -100…350 °C, W0.3 and W0.6 "
-    "-196…600 °C instead of -196…660 °C (IEC 60751:2008, 5.1.2, from memory)"
-)
-W_RANGE_WRONG = {"W0.1", "W0.3", "W0.6"}
 
 
 def _ranged(rows: list[tuple[str, str, float, float, float, float]]) -> list[object]:
-    """The rows as pytest params, the resistor ranges known to differ marked xfail."""
-    out: list[object] = []
-    for row in rows:
-        marks = [pytest.mark.xfail(strict=True, reason=W_RANGE_REASON)] if row[0] in W_RANGE_WRONG else []
-        out.append(pytest.param(*row, marks=marks, id=f"{row[0]}-{row[1]}"))
-    return out
+    """The rows as pytest params, named by class and element."""
+    return [pytest.param(*row, id=f"{row[0]}-{row[1]}") for row in rows]
 
 
 ALL_ROWS = THERMOMETER_CLASSES + RESISTOR_CLASSES
