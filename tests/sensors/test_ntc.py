@@ -181,7 +181,7 @@ def test_beta_inverse_matches_scipy_brentq() -> None:
         assert float(ntc.resistance(t_c)[0]) == pytest.approx(math.exp(ln_r), rel=1e-11)
 
 
-@settings(max_examples=200, deadline=None)
+@settings(max_examples=100, deadline=None)
 @given(r=st.floats(1.0, 1e7))
 def test_resistance_to_temperature_round_trip(r: float) -> None:
     t, flags = PUBLISHED.temperature(r)
@@ -191,7 +191,7 @@ def test_resistance_to_temperature_round_trip(r: float) -> None:
     assert float(r_back) == pytest.approx(r, rel=1e-11)
 
 
-@settings(max_examples=200, deadline=None)
+@settings(max_examples=100, deadline=None)
 @given(
     t=st.floats(-80.0, 300.0),
     a=st.floats(0.6e-3, 1.6e-3),
