@@ -254,19 +254,31 @@ def _convert_table(records: list[dict[str, Any]]) -> str:
 
 
 def _budget_table(rec: dict[str, Any]) -> str:
-    out = [f"budget for {rec['ohms']:g} ohm:"]
+    t = rec["temperature_c"]
+    title = f"budget for {rec['ohms']:g} ohm" + ("" if t is None else f" (t = {t:.4f} °C)")
     if not rec["budget"]:
-        out.append("  no temperature, no budget")
-        return "\n".join(out)
-    for c in rec["budget"]:
-        out.append(
-            f"  {c['name']:20s} {c['distribution']:12s} ±{c['value']:.4g} {c['unit']:3s} "
-            f"/ {c['divisor']:.4g} × {c['sensitivity_k_per_unit']:.4g} K/{c['unit']} "
-            f"= {c['standard_uncertainty_c']:.4f} K   {c['description']}"
+        return f"{title}: no temperature, no budget"
+    head = ("source", "distribution", "bound or U", "divisor", "sensitivity", "u(t) K", "what")
+    rows = [
+        (
+            c["name"],
+            c["distribution"],
+            f"{c['value']:.4g} {c['unit']}",
+            f"{c['divisor']:.4g}",
+            f"{c['sensitivity_k_per_unit']:.4g} K/{c['unit']}",
+            f"{c['standard_uncertainty_c']:.4f}",
+            c["description"],
         )
-    out.append(f"  {'combined u_c':20s} {'':12s} {'':26s} = {rec['standard_uncertainty_c']:.4f} K")
-    out.append(f"  {'expanded U (k=2)':20s} {'':12s} {'':26s} = {rec['expanded_uncertainty_c']:.4f} K")
-    return "\n".join(out)
+        for c in rec["budget"]
+    ]
+    rows.append(("combined u_c", "", "", "", "", f"{rec['standard_uncertainty_c']:.4f}", "root-sum-square"))
+    rows.append(("expanded U", "", "", "", "", f"{rec['expanded_uncertainty_c']:.4f}", "k = 2"))
+    widths = [max(len(r[i]) for r in [head, *rows]) for i in range(len(head) - 1)]
+    lines = [title]
+    for r in [head, *rows]:
+        cells = [r[i].ljust(widths[i]) if i < 2 else r[i].rjust(widths[i]) for i in range(len(widths))]
+        lines.append(("  " + "  ".join(cells) + "  " + r[-1]).rstrip())
+    return "\n".join(lines)
 
 
 # ---------------------------------------------------------------- bench
