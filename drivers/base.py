@@ -1,0 +1,153 @@
+"""The one small interface every driver offers, and the raw reading it produces.
+
+A driver turns an instrument into ``RawReading``s and nothing else: it knows
+SCPI, VISA resources, serial framing, checksums and reconnecting; it knows
+nothing of temperature. Instrument trouble never escapes ``read_scan`` as an
+exception: it becomes a status on the readings and a line in ``health()``.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from typing import Literal, Protocol
+
+__all__ = [
+    "Status",
+    "STATUSES",
+    "RawReading",
+    "Health",
+    "Driver",
+    "failed_scan",
+]
+
+Status = Literal[
+    "ok",
+    "open",
+    "short",
+    "overload",
+    "out_of_range",
+    "timeout",
+    "lost",
+    "garbage",
+    "checksum",
+    "error",
+]
+
+#: every status a reading can carry; ``ok`` is the only one with a value
+STATUSES: tuple[str, ...] = (
+    "ok",  # a value
+    "open",  # sensor open (overload on the lowest range, or the board's open code)
+    "short",  # sensor shorted (a resistance no RTD of its R0 can have)
+    "overload",  # the instrument says over range (SCPI +9.9E37)
+    "out_of_range",  # a number the instrument should not have sent for this input
+    "timeout",  # no answer in time
+    "lost",  # no connection to the instrument (reconnecting)
+    "garbage",  # an answer that does not parse
+    "checksum",  # a frame whose checksum is wrong
+    "error",  # the instrument reported an error for this reading
+)
+
+
+@dataclass(frozen=True)
+class RawReading:
+    """One value from one instrument input, before any metrology.
+
+    Attributes:
+        channel: the instrument's own name for the input (``"101"``, ``"2"``).
+        t_utc_s: when it was taken, UTC, seconds since the epoch (from the
+            clock the driver was given).
+        value: the number in ``unit``; NaN unless ``status`` is ``ok``.
+        unit: ``ohm`` (or ``V``, ``counts`` for boards that report those).
+        status: one of ``STATUSES``.
+        reason: a short human explanation when not ``ok``.
+        current_a: the measuring current the instrument drove, when known
+            (the pipeline corrects self-heating with it).
+        wiring: 2, 3 or 4 when the instrument measured in that mode.
+    """
+
+    channel: str
+    t_utc_s: float
+    value: float
+    unit: str = "ohm"
+    status: str = "ok"
+    reason: str = ""
+    current_a: float | None = None
+    wiring: int | None = None
+
+    def __post_init__(self) -> None:
+        if self.status not in STATUSES:
+            raise ValueError(f"unknown reading status {self.status!r}; known: {', '.join(STATUSES)}")
+        if self.status != "ok" and not math.isnan(self.value):
+            raise ValueError(f"a reading with status {self.status!r} carries no value, got {self.value!r}")
+        if self.status == "ok" and not math.isfinite(self.value):
+            raise ValueError(f"an ok reading needs a finite value, got {self.value!r}")
+
+    @property
+    def ok(self) -> bool:
+        return self.status == "ok"
+
+
+@dataclass
+class Health:
+    """What a driver knows about its instrument's condition (mutable, owned by the driver)."""
+
+    connected: bool = False
+    identity: str = ""
+    last_error: str = ""
+    last_error_utc_s: float | None = None
+    last_ok_utc_s: float | None = None
+    reads: int = 0
+    errors: int = 0
+    timeouts: int = 0
+    reconnects: int = 0
+    bad_frames: int = 0
+    next_retry_utc_s: float | None = None
+    counters: dict[str, int] = field(default_factory=dict)
+
+    def snapshot(self) -> dict[str, object]:
+        """A plain dict copy, safe to hand to another thread."""
+        return {
+            "connected": self.connected,
+            "identity": self.identity,
+            "last_error": self.last_error,
+            "last_error_utc_s": self.last_error_utc_s,
+            "last_ok_utc_s": self.last_ok_utc_s,
+            "reads": self.reads,
+            "errors": self.errors,
+            "timeouts": self.timeouts,
+            "reconnects": self.reconnects,
+            "bad_frames": self.bad_frames,
+            "next_retry_utc_s": self.next_retry_utc_s,
+            **dict(self.counters),
+        }
+
+
+class Driver(Protocol):
+    """What the service needs from any instrument."""
+
+    name: str
+
+    def open(self) -> None:
+        """Connect and configure; raises ``InstrumentError`` if that cannot be done now."""
+        ...
+
+    def close(self) -> None:
+        """Release the instrument; never raises."""
+        ...
+
+    def read_scan(self) -> list[RawReading]:
+        """One reading per configured channel; instrument trouble becomes statuses, never raises."""
+        ...
+
+    def health(self) -> dict[str, object]:
+        """A snapshot of ``Health``."""
+        ...
+
+
+def failed_scan(
+    channels: Sequence[str], t_utc_s: float, status: str, reason: str
+) -> list[RawReading]:
+    """A scan in which every channel failed the same way."""
+    return [RawReading(ch, t_utc_s, math.nan, "ohm", status, reason) for ch in channels]
