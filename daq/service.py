@@ -1,0 +1,388 @@
+"""The logger service: the imperative shell that wires drivers, pipeline, (alarms) and store.
+
+Threads:
+
+- one acquisition thread per instrument: scans on a monotonic schedule
+  (slot k at t0 + k·interval, so no drift accumulates); a slow instrument
+  delays only itself, and a scan that starts late is recorded;
+- one pipeline-and-writer thread: converts what the acquisition threads queue,
+  commits at least once a second, records instrument loss and recovery, keeps
+  readings in a bounded buffer while the disk refuses them;
+- the caller's thread supervises (``run``): duration, signals, stop.
+
+Drivers are built by a factory so tests and the demo can pass their own.
+Time comes from a ``ServiceClock``: real, or accelerated against a simulator.
+"""
+
+from __future__ import annotations
+
+import logging
+import queue
+import signal
+import threading
+import time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from daq import __version__
+from daq.clock import ServiceClock, SystemClock
+from daq.config import InstrumentConfig, StationConfig
+from daq.errors import InstrumentError, StorageError
+from daq.pipeline import Pipeline
+from daq.store import SampleBatch, Store, iso_utc
+from drivers.base import Driver, RawReading
+
+__all__ = ["Service", "ServiceStats", "default_driver_factory", "MAX_BUFFERED_READINGS"]
+
+log = logging.getLogger("soaklog")
+
+#: readings kept in memory while the disk refuses them (about 60 MB); beyond
+#: this the oldest are dropped and the drop is recorded as an event
+MAX_BUFFERED_READINGS = 1_000_000
+
+#: a scan that starts this much later than its slot is recorded (fraction of the interval)
+LATE_FRACTION = 0.5
+
+DriverFactory = Callable[[InstrumentConfig, ServiceClock, Sequence[str]], Driver]
+
+
+def default_driver_factory(cfg: InstrumentConfig, clock: ServiceClock, inputs: Sequence[str]) -> Driver:
+    """Build the driver an instrument's configuration names."""
+    if cfg.driver == "scpi":
+        from drivers.scpi_meter import ScpiMeter
+
+        return ScpiMeter.from_config(cfg, clock, inputs)
+    if cfg.driver == "serial-adc":
+        from drivers.serial_adc import SerialAdc
+
+        return SerialAdc.from_config(cfg, clock, inputs)
+    raise InstrumentError(f"no driver for {cfg.driver!r} (instrument {cfg.name})")
+
+
+@dataclass
+class ServiceStats:
+    """Counters the service keeps (read from any thread; approximate while running)."""
+
+    scans: int = 0
+    readings: int = 0
+    stored: int = 0
+    commits: int = 0
+    late_scans: int = 0
+    storage_failures: int = 0
+    dropped: int = 0
+    buffered: int = 0
+    per_instrument: dict[str, int] = field(default_factory=dict)
+
+
+@dataclass
+class _Scan:
+    instrument: str
+    readings: list[RawReading]
+    health: dict[str, Any]
+    late_s: float
+
+
+class Service:
+    """One station's logger. ``start()``, then ``run()`` or ``stop()``."""
+
+    def __init__(
+        self,
+        config: StationConfig,
+        *,
+        clock: ServiceClock | None = None,
+        driver_factory: DriverFactory | None = None,
+        new_run: bool = False,
+        commit_interval_s: float | None = None,
+        on_batch: Callable[[SampleBatch], None] | None = None,
+    ) -> None:
+        self.config = config
+        self.clock = clock or SystemClock()
+        self._factory = driver_factory or default_driver_factory
+        self._new_run = new_run
+        self._commit_s = commit_interval_s or config.commit_interval_s
+        self._on_batch = on_batch
+        self._stop = threading.Event()
+        self._queue: queue.Queue[_Scan | None] = queue.Queue(maxsize=10_000)
+        self._threads: list[threading.Thread] = []
+        self._drivers: dict[str, Driver] = {}
+        self.stats = ServiceStats()
+        self.store: Store | None = None
+        self.run_id: int | None = None
+        self.pipeline: Pipeline | None = None
+        self._started = False
+        self._fatal: BaseException | None = None
+
+    # ------------------------------------------------------------ life cycle
+
+    def start(self) -> int:
+        """Open the store, continue or begin the run, start the threads; returns the run id."""
+        cfg = self.config
+        store = Store.open(cfg.database)
+        self.store = store
+        now_ms = int(self.clock.utc_s() * 1000)
+        info = store.begin_run(
+            cfg.text, now_ms=now_ms, station=cfg.station, name=cfg.run_name,
+            software=f"soaklog {__version__}", config_path=cfg.path, new_run=self._new_run,
+        )
+        self.run_id = info.run_id
+        ids = store.ensure_channels(
+            info.run_id, [(c.name, c.label, c.instrument, "ohm") for c in cfg.channels]
+        )
+        self.pipeline = Pipeline(cfg, ids)
+        if info.continued:
+            gap_from = info.last_t_ms
+            msg = "logger restarted; run continues"
+            data: dict[str, Any] = {}
+            if gap_from is not None:
+                gap_s = max(0.0, (now_ms - gap_from) / 1000.0)
+                msg = f"logger restarted after a gap of {gap_s:.1f} s; run continues"
+                data = {"from_utc": iso_utc(gap_from), "to_utc": iso_utc(now_ms), "gap_s": gap_s}
+            store.add_event(info.run_id, now_ms, "gap", msg, severity="warning", data=data)
+            log.warning("run %d continued: %s", info.run_id, msg)
+        store.add_event(
+            info.run_id, now_ms, "service_start",
+            f"logger started ({len(cfg.channels)} channels on {len(cfg.instruments)} instruments)",
+            data={"software": f"soaklog {__version__}", "config": cfg.path},
+        )
+        log.info("run %d: logging %d channels to %s", info.run_id, len(cfg.channels), cfg.database)
+
+        for inst in cfg.instruments:
+            inputs = [c.input for c in cfg.channels if c.instrument == inst.name]
+            if not inputs:
+                continue
+            driver = self._factory(inst, self.clock, inputs)
+            self._drivers[inst.name] = driver
+            t = threading.Thread(target=self._acquire, args=(inst, driver), name=f"acq-{inst.name}", daemon=True)
+            self._threads.append(t)
+        writer = threading.Thread(target=self._write_loop, name="writer", daemon=True)
+        self._writer = writer
+        writer.start()
+        for t in self._threads:
+            t.start()
+        self._started = True
+        return info.run_id
+
+    def stop(self) -> None:
+        """Stop acquiring, store what is pending, record the stop; idempotent."""
+        if not self._started:
+            return
+        self._started = False
+        self._stop.set()
+        for t in self._threads:
+            t.join(timeout=30)
+        self._queue.put(None)
+        self._writer.join(timeout=60)
+        for d in self._drivers.values():
+            try:
+                d.close()
+            except Exception:  # noqa: BLE001 - closing must not stop the shutdown
+                log.exception("closing %s", getattr(d, "name", "driver"))
+        if self.store is not None and self.run_id is not None:
+            now_ms = int(self.clock.utc_s() * 1000)
+            try:
+                self.store.add_event(self.run_id, now_ms, "service_stop", "logger stopped",
+                                     data={"readings": self.stats.readings, "stored": self.stats.stored})
+                self.store.end_run(self.run_id, now_ms=now_ms)
+                self.store.checkpoint()
+            except StorageError as exc:
+                log.error("could not record the stop: %s", exc)
+            self.store.close()
+        log.info("stopped: %d readings, %d stored", self.stats.readings, self.stats.stored)
+
+    def run(self, duration_s: float | None = None, *, handle_signals: bool = True) -> int:
+        """Start (if needed), run until ``duration_s`` of service time or a signal, stop; exit status."""
+        if not self._started:
+            self.start()
+        stop_req = threading.Event()
+        old: dict[int, Any] = {}
+        if handle_signals and threading.current_thread() is threading.main_thread():
+            for sig in (signal.SIGTERM, signal.SIGINT):
+                old[sig] = signal.signal(sig, lambda *_: stop_req.set())
+        try:
+            end = None if duration_s is None else self.clock.monotonic_s() + duration_s
+            while not stop_req.is_set() and self._fatal is None:
+                if end is not None and self.clock.monotonic_s() >= end:
+                    break
+                stop_req.wait(0.2)
+        finally:
+            self.stop()
+            for sig, h in old.items():
+                signal.signal(sig, h)
+        if self._fatal is not None:
+            log.error("stopped on an error: %s", self._fatal)
+            return 1
+        return 0
+
+    def health(self) -> dict[str, dict[str, Any]]:
+        return {name: d.health() for name, d in self._drivers.items()}
+
+    # ------------------------------------------------------------ acquisition
+
+    def _acquire(self, inst: InstrumentConfig, driver: Driver) -> None:
+        interval = inst.interval_s
+        try:
+            driver.open()
+        except InstrumentError as exc:
+            log.warning("%s: %s; will keep trying", inst.name, exc)
+        except Exception:  # noqa: BLE001 - a driver bug must not kill acquisition silently
+            log.exception("%s: opening failed", inst.name)
+        t0 = self.clock.monotonic_s()
+        k = 0
+        while not self._stop.is_set():
+            slot = t0 + k * interval
+            if not self.clock.wait_until(slot, self._stop):
+                break
+            late = self.clock.monotonic_s() - slot
+            try:
+                readings = driver.read_scan()
+            except Exception as exc:  # noqa: BLE001 - contract says never, but never trust it
+                log.exception("%s: read_scan raised", inst.name)
+                from drivers.base import failed_scan
+
+                readings = failed_scan(
+                    [c.input for c in self.config.channels if c.instrument == inst.name],
+                    self.clock.utc_s(), "error", f"driver error: {exc}",
+                )
+            try:
+                health = driver.health()
+            except Exception:  # noqa: BLE001
+                health = {}
+            self._queue.put(_Scan(inst.name, readings, health, late))
+            # next slot: the first one still ahead (a slow scan skips slots, never bunches them)
+            now = self.clock.monotonic_s()
+            k = max(k + 1, int((now - t0) // interval) + 1)
+
+    # ------------------------------------------------------------ writing
+
+    def _write_loop(self) -> None:
+        assert self.store is not None and self.pipeline is not None and self.run_id is not None
+        store, pipeline, run_id = self.store, self.pipeline, self.run_id
+        pending: list[SampleBatch] = []
+        pending_n = 0
+        connected: dict[str, bool | None] = {}
+        last_commit = time.monotonic()
+        last_health = 0.0
+        storage_down = False
+        done = False
+        while not done:
+            timeout = max(0.0, self._commit_s - (time.monotonic() - last_commit))
+            try:
+                item = self._queue.get(timeout=timeout)
+            except queue.Empty:
+                item = _NOTHING
+            if item is None:
+                done = True
+            elif item is not _NOTHING:
+                assert isinstance(item, _Scan)
+                self.stats.scans += 1
+                self.stats.readings += len(item.readings)
+                self.stats.per_instrument[item.instrument] = (
+                    self.stats.per_instrument.get(item.instrument, 0) + len(item.readings)
+                )
+                batch = pipeline.convert(item.instrument, item.readings)
+                if len(batch):
+                    pending.append(batch)
+                    pending_n += len(batch)
+                    if self._on_batch is not None:
+                        self._on_batch(batch)
+                self._note_health(store, run_id, item, connected)
+                if item.late_s > LATE_FRACTION * self.config.instrument(item.instrument).interval_s:
+                    self.stats.late_scans += 1
+                    self._event(store, run_id, "scan_late",
+                                f"{item.instrument}: scan started {item.late_s:.2f} s after its slot",
+                                severity="info", data={"late_s": item.late_s})
+            if (time.monotonic() - last_commit >= self._commit_s or done) and pending:
+                try:
+                    store.write(run_id, SampleBatch.concat(pending) if len(pending) > 1 else pending[0])
+                    self.stats.stored += pending_n
+                    self.stats.commits += 1
+                    pending, pending_n = [], 0
+                    if storage_down:
+                        storage_down = False
+                        self._event(store, run_id, "storage_recovered", "database writable again; buffered readings stored")
+                        log.warning("storage recovered")
+                except StorageError as exc:
+                    self.stats.storage_failures += 1
+                    if not storage_down:
+                        storage_down = True
+                        log.error("%s; keeping readings in memory and retrying", exc)
+                    if pending_n > MAX_BUFFERED_READINGS:
+                        pending, pending_n = self._drop_oldest(pending, pending_n)
+                    if done:
+                        log.error("stopping with %d readings that could not be stored", pending_n)
+                last_commit = time.monotonic()
+                self.stats.buffered = pending_n
+            elif not pending:
+                last_commit = time.monotonic()
+            if time.monotonic() - last_health >= 5.0 or done:
+                last_health = time.monotonic()
+                self._store_health(store, run_id)
+
+    def _drop_oldest(self, pending: list[SampleBatch], n: int) -> tuple[list[SampleBatch], int]:
+        dropped = 0
+        while pending and n > MAX_BUFFERED_READINGS:
+            b = pending.pop(0)
+            n -= len(b)
+            dropped += len(b)
+        self.stats.dropped += dropped
+        log.error("buffer full: %d readings dropped (oldest first)", dropped)
+        if self.store is not None and self.run_id is not None:
+            self._event(self.store, self.run_id, "data_dropped",
+                        f"{dropped} readings dropped: the database refused writes for too long",
+                        severity="critical", data={"dropped": dropped})
+        return pending, n
+
+    def _event(self, store: Store, run_id: int, kind: str, message: str, *, severity: str = "info",
+               data: dict[str, Any] | None = None, ch: int | None = None) -> None:
+        try:
+            store.add_event(run_id, int(self.clock.utc_s() * 1000), kind, message,
+                            severity=severity, data=data, ch=ch)
+        except StorageError as exc:
+            log.error("event %s not recorded (%s): %s", kind, exc, message)
+
+    def _note_health(self, store: Store, run_id: int, scan: _Scan, connected: dict[str, bool | None]) -> None:
+        now = bool(scan.health.get("connected", any(r.ok for r in scan.readings)))
+        before = connected.get(scan.instrument)
+        connected[scan.instrument] = now
+        if before is None:
+            if not now:
+                reason = scan.health.get("last_error") or (scan.readings[0].reason if scan.readings else "")
+                self._event(store, run_id, "instrument_lost", f"{scan.instrument}: not reachable at start: {reason}",
+                            severity="high")
+                log.warning("%s not reachable: %s", scan.instrument, reason)
+            return
+        if before and not now:
+            reason = scan.health.get("last_error") or (scan.readings[0].reason if scan.readings else "")
+            self._event(store, run_id, "instrument_lost", f"{scan.instrument}: lost: {reason}", severity="high",
+                        data={"reason": reason})
+            log.warning("%s lost: %s", scan.instrument, reason)
+        elif not before and now:
+            self._event(store, run_id, "instrument_recovered", f"{scan.instrument}: back", severity="info")
+            log.warning("%s recovered", scan.instrument)
+
+    def _store_health(self, store: Store, run_id: int) -> None:
+        now_ms = int(self.clock.utc_s() * 1000)
+        for name, d in self._drivers.items():
+            try:
+                h = d.health()
+            except Exception:  # noqa: BLE001
+                h = {}
+            try:
+                store.set_instrument(run_id, name, now_ms=now_ms, connected=bool(h.get("connected")),
+                                     identity=str(h.get("identity", "")), health=h)
+            except StorageError:
+                pass
+
+
+_NOTHING: Any = object()
+
+
+def summarise_batch(batch: SampleBatch) -> dict[str, Any]:
+    """Counts by status of a batch (for logs and tests)."""
+    codes, counts = np.unique(batch.status, return_counts=True)
+    from daq.store import status_name
+
+    return {status_name(int(c)): int(n) for c, n in zip(codes, counts, strict=True)}
