@@ -19,6 +19,7 @@ import pytest
 from pyvisa.constants import StatusCode
 
 from simulators.dmm import DmmSimulator
+from simulators.dmm_bench import bench_dmm
 from simulators.plant import OPEN_OHM, FixedPlant, Terminal
 
 # IEC 60751:2008 table 1 (Pt100): 0 °C -> 100.00 ohm, 100 °C -> 138.51 ohm
@@ -64,9 +65,9 @@ class SelfHeatingPlant(RecordingPlant):
 
 @pytest.fixture(scope="module")
 def rm() -> Iterator[pyvisa.ResourceManager]:
-    manager = pyvisa.ResourceManager("@py")
-    yield manager
-    manager.close()
+    # Sessions are closed per test; the manager is not, since pyvisa shares one
+    # per backend with every other module of the run.
+    yield pyvisa.ResourceManager("@py")
 
 
 @pytest.fixture
@@ -680,3 +681,18 @@ def test_resource_names_the_loopback_port(connect: Connect) -> None:
     host, port = sim.address
     assert sim.resource == f"TCPIP0::127.0.0.1::{port}::SOCKET"
     assert host == "127.0.0.1"
+
+
+# --- the benchmark (run for its shape here, not timed) -----------------------
+
+
+def test_benchmark_reports_its_figures_and_leaves_other_sessions_alone(connect: Connect) -> None:
+    sim, inst = connect()
+    result = bench_dmm(n=50, warmup=5)
+    assert result["queries"] == 50
+    assert result["queries_per_s"] > 0
+    assert result["raw_socket_queries_per_s"] > 0
+    ratio = result["queries_per_s"] / result["raw_socket_queries_per_s"]
+    assert result["ratio_vs_raw_socket"] == pytest.approx(ratio)
+    assert result["meets_target"] is (result["queries_per_s"] >= result["target_queries_per_s"])
+    assert inst.query("*IDN?") == sim.identity
