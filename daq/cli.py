@@ -316,6 +316,152 @@ def _cmd_bench(args: argparse.Namespace) -> int:
     return 0
 
 
+# ---------------------------------------------------------------- station commands
+
+DEFAULT_DB = "soaklog-demo.db"
+
+
+def _setup_logging(debug: bool) -> None:
+    import logging
+
+    logging.basicConfig(
+        level=logging.DEBUG if debug else logging.INFO,
+        format="%(asctime)s soaklog %(levelname)s %(message)s",
+        stream=sys.stderr,
+    )
+
+
+def _add_db_args(p: argparse.ArgumentParser) -> None:
+    p.add_argument("config", nargs="?", metavar="CONFIG", help="station file (its database is used)")
+    p.add_argument("--db", metavar="PATH", help=f"database file (default: {DEFAULT_DB}, as the demo writes it)")
+
+
+def _db_path(args: argparse.Namespace) -> str:
+    if args.db and args.config:
+        raise InputError("give a CONFIG or --db, not both")
+    if args.db:
+        return str(args.db)
+    if args.config:
+        from daq.config import load_config
+
+        return load_config(args.config).database
+    return DEFAULT_DB
+
+
+def _add_check(sub: argparse._SubParsersAction[_Parser]) -> None:
+    p = sub.add_parser(
+        "check", help="validate a station file and print what it would log",
+        description=(
+            "Validate a station configuration (every problem at once, by file and key), then print "
+            "the instruments and channels it would log, the uncertainty each channel can reach, and "
+            "the warnings a metrologist would give. Starts nothing."
+        ),
+    )
+    p.add_argument("config", metavar="CONFIG", help="station file (TOML)")
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.set_defaults(func=_cmd_check)
+
+
+def _cmd_check(args: argparse.Namespace) -> int:
+    from daq.config import load_config
+    from daq.status import check_report, format_check
+
+    cfg = load_config(args.config)
+    rep = check_report(cfg)
+    if args.json:
+        print(json.dumps(rep, indent=2))
+    else:
+        print(format_check(rep, SAFETY_NOTE))
+    return 0
+
+
+def _add_run(sub: argparse._SubParsersAction[_Parser]) -> None:
+    p = sub.add_parser(
+        "run", help="the logger service in the foreground (as a service manager runs it)",
+        description=(
+            "Run the logger for a station file in the foreground until SIGTERM/SIGINT (or --duration). "
+            "The same configuration continues the newest run, recording the gap; a changed one starts a "
+            "new run. Logs go to stderr."
+        ),
+    )
+    p.add_argument("config", metavar="CONFIG", help="station file (TOML)")
+    p.add_argument("--duration", type=_positive("s"), metavar="S", help="stop after S seconds")
+    p.add_argument("--new-run", action="store_true", help="start a new run even if the configuration is unchanged")
+    p.set_defaults(func=_cmd_run)
+
+
+def _cmd_run(args: argparse.Namespace) -> int:
+    from daq.config import load_config
+    from daq.service import Service
+
+    cfg = load_config(args.config)
+    _setup_logging(args.debug)
+    for w in cfg.warnings:
+        print(f"soaklog: warning: {w}", file=sys.stderr)
+    print(f"soaklog: {SAFETY_NOTE}", file=sys.stderr)
+    return Service(cfg, new_run=args.new_run).run(args.duration)
+
+
+def _add_status(sub: argparse._SubParsersAction[_Parser]) -> None:
+    p = sub.add_parser(
+        "status", help="latest value of every channel and the active alarms",
+        description="Print the newest reading of every channel of a run, the instruments and the active alarms.",
+    )
+    _add_db_args(p)
+    p.add_argument("--run", type=int, metavar="ID", help="run id (default: the newest)")
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.set_defaults(func=_cmd_status)
+
+
+def _cmd_status(args: argparse.Namespace) -> int:
+    import time
+
+    from daq.status import format_status, status_report
+    from daq.store import Store
+
+    with Store.open(_db_path(args), readonly=True) as store:
+        rep = status_report(store, args.run, now_ms=int(time.time() * 1000))
+    if args.json:
+        print(json.dumps(rep, indent=2))
+    else:
+        print(format_status(rep))
+    return 0
+
+
+def _add_export(sub: argparse._SubParsersAction[_Parser]) -> None:
+    p = sub.add_parser(
+        "export", help="export a run's readings as CSV or JSON lines",
+        description=(
+            "Write a run's readings, in time order, as CSV (ISO 8601 UTC times, units in the header) "
+            "or JSON lines. Streams: any run length exports in bounded memory."
+        ),
+    )
+    _add_db_args(p)
+    p.add_argument("--run", type=int, metavar="ID", help="run id (default: the newest)")
+    p.add_argument("--format", choices=("csv", "jsonl"), default="csv", help="output format (default csv)")
+    p.add_argument("--from", dest="from_t", metavar="T", help="first time, ISO 8601 (UTC if no zone)")
+    p.add_argument("--to", dest="to_t", metavar="T", help="last time, ISO 8601")
+    p.add_argument("--out", metavar="FILE", help="write to FILE instead of standard output")
+    p.set_defaults(func=_cmd_export)
+
+
+def _cmd_export(args: argparse.Namespace) -> int:
+    from daq.export import export_run, parse_time, terminal_progress
+    from daq.store import Store
+
+    from_ms = parse_time(args.from_t) if args.from_t else None
+    to_ms = parse_time(args.to_t) if args.to_t else None
+    with Store.open(_db_path(args), readonly=True) as store:
+        if args.out:
+            with open(args.out, "w", encoding="utf-8", newline="") as fh:
+                n = export_run(store, fh, run_id=args.run, fmt=args.format, from_ms=from_ms, to_ms=to_ms,
+                               progress=terminal_progress())
+            print(f"soaklog: {n} readings written to {args.out}", file=sys.stderr)
+        else:
+            export_run(store, sys.stdout, run_id=args.run, fmt=args.format, from_ms=from_ms, to_ms=to_ms)
+    return 0
+
+
 # ---------------------------------------------------------------- main
 
 
@@ -328,7 +474,11 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"soaklog {__version__}")
     parser.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    _add_run(sub)
+    _add_check(sub)
+    _add_status(sub)
     _add_convert(sub)
+    _add_export(sub)
     _add_bench(sub)
     return parser
 

@@ -1,0 +1,86 @@
+"""`soaklog export`: a run's readings as CSV or JSON lines, streamed in bounded memory."""
+
+from __future__ import annotations
+
+import csv
+import json
+import sys
+from collections.abc import Callable
+from datetime import datetime
+from typing import IO
+
+from daq.errors import InputError
+from daq.store import Store, iso_utc
+
+__all__ = ["export_run", "parse_time"]
+
+CSV_HEADER = ["t_utc", "channel", "raw", "raw_unit", "temperature_c", "uncertainty_c_k2", "status"]
+
+
+def parse_time(text: str) -> int:
+    """ISO 8601 (a Z or offset, or UTC when none) to milliseconds since the epoch."""
+    t = text.strip()
+    try:
+        dt = datetime.fromisoformat(t.replace("Z", "+00:00"))
+    except ValueError:
+        raise InputError(f"{text!r} is not an ISO 8601 time (like 2026-12-01T08:00:00Z)") from None
+    if dt.tzinfo is None:
+        from datetime import UTC
+
+        dt = dt.replace(tzinfo=UTC)
+    return int(dt.timestamp() * 1000)
+
+
+def export_run(
+    store: Store,
+    out: IO[str],
+    *,
+    run_id: int | None = None,
+    fmt: str = "csv",
+    from_ms: int | None = None,
+    to_ms: int | None = None,
+    progress: Callable[[int, int], None] | None = None,
+) -> int:
+    """Write the run's readings to ``out``; returns the number written."""
+    run = store.run(run_id)
+    rid = int(run["id"])
+    first, last = store.time_span(rid)
+    span = None if first is None or last is None else ((from_ms or first), (to_ms or last))
+    n = 0
+    writer = csv.writer(out, lineterminator="\n") if fmt == "csv" else None
+    if writer is not None:
+        out.write(f"# soaklog export: run {rid} {run['name']} station {run['station']}; times UTC (ISO 8601); "
+                  "raw in raw_unit; temperature in degC; uncertainty_c_k2 = expanded uncertainty, k = 2, in K\n")
+        writer.writerow(CSV_HEADER)
+    for chunk in store.iter_readings(rid, from_ms=from_ms, to_ms=to_ms):
+        for t_ms, ch, raw, unit, temp, u, status in chunk:
+            if writer is not None:
+                writer.writerow([
+                    iso_utc(t_ms), ch, "" if raw is None else repr(raw), unit,
+                    "" if temp is None else f"{temp:.6f}", "" if u is None else f"{u:.4f}", status,
+                ])
+            else:
+                out.write(json.dumps({
+                    "t_utc": iso_utc(t_ms), "channel": ch, "raw": raw, "raw_unit": unit,
+                    "temperature_c": temp, "uncertainty_c": u, "status": status,
+                }) + "\n")
+        n += len(chunk)
+        if progress is not None and span is not None and chunk:
+            progress(int(chunk[-1][0]) - span[0], max(1, span[1] - span[0]))
+    return n
+
+
+def terminal_progress(stream: IO[str] = sys.stderr) -> Callable[[int, int], None]:
+    """A one-line progress bar on a terminal (nothing when not a terminal)."""
+    if not stream.isatty():
+        return lambda done, total: None
+
+    def show(done: int, total: int) -> None:
+        frac = min(1.0, done / total)
+        bar = "#" * int(frac * 30)
+        stream.write(f"\rexporting [{bar:<30s}] {frac:5.1%}")
+        stream.flush()
+        if frac >= 1.0:
+            stream.write("\n")
+
+    return show
