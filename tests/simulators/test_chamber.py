@@ -416,3 +416,13 @@ def test_bad_positions_are_refused() -> None:
         Position("p", air_weight=1.5)
     with pytest.raises(InputError):
         ChamberModel(ChamberParams(), None, (Position("p"), Position("p")))
+
+
+def test_the_benchmark_runs_and_counts_its_steps() -> None:
+    # a smoke run of the benchmark (its figures are not judged here): half an
+    # hour at 1 s steps is 1800 steps (by hand)
+    from simulators.bench import bench_chamber
+
+    result = bench_chamber(hours=0.5)
+    assert result["steps"] == 1800
+    assert set(result) >= {"wall_s", "steps_per_s", "projected_1000h_s", "meets_target"}
