@@ -16,6 +16,8 @@ from collections.abc import Callable, Iterator, Mapping
 
 import pyvisa
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 from pyvisa.constants import StatusCode
 
 from simulators.dmm import DmmSimulator
@@ -696,3 +698,32 @@ def test_benchmark_reports_its_figures_and_leaves_other_sessions_alone(connect: 
     assert result["ratio_vs_raw_socket"] == pytest.approx(ratio)
     assert result["meets_target"] is (result["queries_per_s"] >= result["target_queries_per_s"])
     assert inst.query("*IDN?") == sim.identity
+
+
+# --- bad input never escapes as an exception ---------------------------------
+
+
+@pytest.fixture(scope="module")
+def bare_sim() -> Iterator[DmmSimulator]:
+    """A simulator driven through ``execute`` only, no client."""
+    sim = DmmSimulator(FixedPlant(SCAN_VALUES, lead_ohm=LEAD_OHM), SCAN_MAP, time_scale=0.0, seed=3)
+    yield sim
+    sim.close()
+
+
+WORDS = st.sampled_from(
+    ["CONF:FRES", "MEAS:RES?", "READ?", "ROUT:SCAN", "FRES:NPLC", "RANG", "*ESE", "SYST:ERR?", "(@101:1", "(@999)",
+     "MAX", "1e9", "-1", "ON", '"x', ";", ",", ":", "?", " ", "\t", "\xb5"]
+)  # fmt: skip
+
+
+@given(st.one_of(st.text(max_size=60), st.lists(WORDS, max_size=12).map("".join)))
+def test_no_message_makes_the_simulator_raise(bare_sim: DmmSimulator, message: str) -> None:
+    reply = bare_sim.execute(message.encode("utf-8", "replace"))
+    assert reply is None or reply.isascii()
+    # -300 is what an unexpected Python exception inside a handler becomes
+    codes = []
+    while (code := int(str(bare_sim.execute(":SYST:ERR?")).split(",")[0])) != 0:
+        codes.append(code)
+    assert -300 not in codes
+    assert all(-499 <= c <= -100 for c in codes)
