@@ -613,8 +613,8 @@ def _channels(
         default_wiring = icfg.wiring if icfg is not None else 4
         wiring = ck.get(d, key, "wiring", int, default=default_wiring,
                         check=lambda v: None if v in (2, 3, 4) else f"must be 2, 3 or 4, got {v!r}")
-        if icfg is not None and wiring is not None and icfg.driver == "scpi" and wiring != icfg.wiring:
-            ck.bad(f"{key}.wiring", f"{inst} measures {icfg.wiring}-wire; a channel on it cannot be {wiring}-wire")
+        if icfg is not None and wiring is not None and icfg.driver == "scpi" and wiring not in (2, 4):
+            ck.bad(f"{key}.wiring", f"a multimeter measures 2- or 4-wire, not {wiring}-wire")
         leads = _leads(ck, d, key, wiring)
         ma = ck.get(d, key, "excitation_ma", float, check=_positive)
         if name is None or inst is None or inp is None or sensor is None or leads is None:
