@@ -97,14 +97,15 @@ class InstrumentConfig:
     reference_tolerance_pct: float = 0.0
     excitation_a: float = 250e-6
 
-    def current_for_range(self) -> float | None:
-        """The measuring current on the configured range (None on autorange)."""
+    def current_for_range(self, range_ohm: float | None = None) -> float | None:
+        """The measuring current on a range (the instrument's by default; None on autorange)."""
         if self.driver != "scpi":
             return self.excitation_a
-        if self.range_ohm is None:
+        rng_ohm = self.range_ohm if range_ohm is None else range_ohm
+        if rng_ohm is None:
             return None
         for rng in sorted(self.test_current_a):
-            if self.range_ohm <= rng:
+            if rng_ohm <= rng:
                 return self.test_current_a[rng]
         return None
 
@@ -139,6 +140,7 @@ class ChannelConfig:
     leads: Leads
     excitation_a: float | None
     position: str = ""
+    range_ohm: float | None = None  # a meter range for this channel alone (None: the instrument's)
 
 
 @dataclass(frozen=True)
@@ -184,12 +186,13 @@ class StationConfig:
             c = sensor.calibration
             cal = Calibration(c.expanded_uncertainty_c, c.k, c.span_c[0], c.span_c[1], c.certificate)
         spec = SensorSpec(sensor.curve, sensor.tolerance, cal, sensor.dissipation_w_per_k)
-        current = channel.excitation_a if channel.excitation_a is not None else inst.current_for_range()
+        rng = channel.range_ohm if channel.range_ohm is not None else inst.range_ohm
+        current = channel.excitation_a if channel.excitation_a is not None else inst.current_for_range(rng)
         excitation = Excitation(current_a=current) if current is not None else None
         meter = None
         adc = None
         if inst.driver == "scpi" and inst.accuracy_pct_reading is not None:
-            meter = MeterSpec(inst.accuracy_pct_reading, inst.accuracy_pct_range or 0.0, inst.range_ohm)
+            meter = MeterSpec(inst.accuracy_pct_reading, inst.accuracy_pct_range or 0.0, rng)
         if inst.driver == "serial-adc":
             adc = AdcSpec(inst.bits, inst.reference_ohm, inst.reference_tolerance_pct)
         return MeasurementChain(spec, channel.leads, excitation, meter, adc)
@@ -328,7 +331,10 @@ _SENSOR_KEYS = {
     "calibration", "description",
 }
 _CAL_KEYS = {"certificate", "date", "due", "expanded_uncertainty_c", "k", "span_c", "r0_ohm", "coefficients"}
-_CHANNEL_KEYS = {"name", "label", "instrument", "input", "sensor", "wiring", "lead", "imbalance_ohm", "excitation_ma", "position"}
+_CHANNEL_KEYS = {
+    "name", "label", "instrument", "input", "sensor", "wiring", "lead", "imbalance_ohm", "excitation_ma",
+    "position", "range_ohm",
+}
 _LEAD_KEYS = {"ohms", "awg", "mm2", "inside_m", "outside_m", "tolerance", "imbalance_fraction"}
 _ALARM_KEYS_COMMON = {"name", "kind", "channel", "channels", "severity"}
 _DRIVERS = {"scpi", "serial-adc"}
@@ -617,12 +623,15 @@ def _channels(
             ck.bad(f"{key}.wiring", f"a multimeter measures 2- or 4-wire, not {wiring}-wire")
         leads = _leads(ck, d, key, wiring)
         ma = ck.get(d, key, "excitation_ma", float, check=_positive)
+        ch_range = ck.get(d, key, "range_ohm", float, check=_positive)
+        if ch_range is not None and icfg is not None and icfg.driver != "scpi":
+            ck.bad(f"{key}.range_ohm", f"a range applies to a multimeter channel; {inst} is a {icfg.driver} board")
         if name is None or inst is None or inp is None or sensor is None or leads is None:
             continue
         out.append(ChannelConfig(
             name=name, label=ck.get(d, key, "label", str, default=name) or name, instrument=inst, input=inp,
             sensor=sensor, leads=leads, excitation_a=None if ma is None else ma / 1000.0,
-            position=ck.get(d, key, "position", str, default="") or "",
+            position=ck.get(d, key, "position", str, default="") or "", range_ohm=ch_range,
         ))
     return out
 
@@ -720,7 +729,8 @@ def _metrology_warnings(
                 f"channel {c.name}: 2-wire with a class {s.tolerance.name} sensor: the lead residual will swamp "
                 "the sensor's tolerance; use 3- or 4-wire"
             )
-        current = c.excitation_a if c.excitation_a is not None else i.current_for_range()
+        rng = c.range_ohm if c.range_ohm is not None else i.range_ohm
+        current = c.excitation_a if c.excitation_a is not None else i.current_for_range(rng)
         if current is not None and s.dissipation_w_per_k is None and s.curve.r0_ohm >= 500 and current >= 0.5e-3:
             ck.warnings.append(
                 f"channel {c.name}: a Pt{s.curve.r0_ohm:g} at {current * 1e3:g} mA self-heats visibly and no "
@@ -735,12 +745,12 @@ def _metrology_warnings(
                     "it is corrected, but its uncertainty grows with it"
                 )
             del r_max
-        if i.driver == "scpi" and i.range_ohm is not None:
+        if i.driver == "scpi" and rng is not None:
             r_hi = float(s.curve.resistance(min(s.curve.t_max_c, 850.0)))
-            if r_hi > 1.2 * i.range_ohm and s.curve.r0_ohm > 1.2 * i.range_ohm / 4:
+            if r_hi > 1.2 * rng and s.curve.r0_ohm > 1.2 * rng / 4:
                 ck.warnings.append(
-                    f"channel {c.name}: the {i.range_ohm:g} ohm range of {i.name} over-ranges above "
-                    f"about {_t_at(s.curve, 1.2 * i.range_ohm):.0f} °C for this sensor"
+                    f"channel {c.name}: the {rng:g} ohm range of {i.name} over-ranges above "
+                    f"about {_t_at(s.curve, 1.2 * rng):.0f} °C for this sensor"
                 )
         if s.tolerance is None and s.calibration is None:
             ck.warnings.append(f"sensor {s.name}: no class or calibration: its uncertainty leaves the sensor out")

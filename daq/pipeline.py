@@ -63,9 +63,8 @@ class Pipeline:
             curve = chain.sensor.curve
             inst = config.instrument(ch.instrument)
             r_max = float(curve.resistance(curve.t_max_c))
-            open_on_overload = inst.driver == "serial-adc" or (
-                inst.range_ohm is not None and 1.2 * inst.range_ohm >= r_max
-            )
+            rng = ch.range_ohm if ch.range_ohm is not None else inst.range_ohm
+            open_on_overload = inst.driver == "serial-adc" or (rng is not None and 1.2 * rng >= r_max)
             self._by_input[(ch.instrument, ch.input)] = ChannelPipeline(
                 ch, store_ids[ch.name], chain,
                 SHORT_FRACTION * float(curve.resistance(curve.t_min_c)),
