@@ -462,6 +462,92 @@ def _cmd_export(args: argparse.Namespace) -> int:
     return 0
 
 
+def _add_demo(sub: argparse._SubParsersAction[_Parser]) -> None:
+    p = sub.add_parser(
+        "demo", help="the simulated lab and the logger against it, accelerated; no hardware, no config",
+        description=(
+            "Start a simulated environmental chamber (power modules cycled -40/+125 °C) with a scanning "
+            "multimeter on loopback TCP and a serial RTD board on a pseudo-terminal, and log it with the "
+            "real logger, faster than real time. Prints where the data is and what to run next."
+        ),
+    )
+    p.add_argument("--headless", action="store_true", help="no dashboard: progress lines only")
+    p.add_argument("--duration", type=_positive("s"), metavar="S", help="stop after S seconds of your time (default: Ctrl-C)")
+    p.add_argument("--db", metavar="PATH", default=DEFAULT_DB, help=f"database file (default {DEFAULT_DB})")
+    p.add_argument("--speed", type=_positive("×"), default=60.0, metavar="X",
+                   help="chamber seconds per real second (default 60)")
+    p.set_defaults(func=_cmd_demo)
+
+
+def _cmd_demo(args: argparse.Namespace) -> int:
+    from daq.demo import main_demo
+
+    _setup_logging(args.debug)
+    import logging
+
+    logging.getLogger("soaklog").setLevel(logging.DEBUG if args.debug else logging.WARNING)
+    return main_demo(args.db, args.duration, args.speed, args.headless)
+
+
+def _add_simulate(sub: argparse._SubParsersAction[_Parser]) -> None:
+    p = sub.add_parser(
+        "simulate", help="run one simulator standalone and print where it listens",
+        description=(
+            "Run a simulator in the foreground until SIGINT/SIGTERM: 'dmm' a SCPI multimeter with a "
+            "scanner card on loopback TCP (prints its VISA resource string), 'adc' the serial RTD board "
+            "on a pseudo-terminal (prints the device path), 'chamber' the whole simulated lab: the "
+            "chamber with both instruments measuring it. Faults are injected at run time through the "
+            "printed control port (one text command per line, e.g. 'fault runaway', 'meter fault mute')."
+        ),
+    )
+    p.add_argument("which", choices=("dmm", "adc", "chamber"), help="what to simulate")
+    p.add_argument("--port", type=int, default=0, metavar="N", help="multimeter TCP port (default: a free one)")
+    p.add_argument("--link", metavar="PATH", help="board: keep a symlink at PATH to the pseudo-terminal")
+    p.add_argument("--control-port", type=int, default=0, metavar="N", help="fault control port (default: a free one)")
+    p.add_argument("--speed", type=_positive("×"), default=1.0, metavar="X", help="chamber seconds per real second (default 1)")
+    p.add_argument("--seed", type=int, default=20261201, metavar="N", help="seed of every random draw")
+    p.add_argument("--rate", type=_positive("Hz"), default=1.0, metavar="HZ", help="board frames per second (default 1)")
+    p.add_argument("--truth", metavar="FILE", help="write the simulator's truth (JSON lines) to FILE")
+    p.add_argument("--fault", action="append", default=[], metavar="CMD",
+                   help="a control command to apply at start, e.g. --fault 'fault open air-return' (repeatable)")
+    p.set_defaults(func=_cmd_simulate)
+
+
+def _cmd_simulate(args: argparse.Namespace) -> int:
+    import signal
+    import threading
+
+    from simulators.lab import Lab
+
+    if args.link and args.which == "dmm":
+        raise InputError("--link applies to the board (adc or chamber)")
+    lab = Lab(
+        seed=args.seed, speed=args.speed, meter=args.which in ("dmm", "chamber"),
+        board=args.which in ("adc", "chamber"), meter_port=args.port, board_link=args.link,
+        control_port=args.control_port, truth_log=args.truth, board_rate_hz=args.rate,
+        truth_log_interval_s=1.0 if args.truth else None,
+    )
+    stop = threading.Event()
+    for sig in (signal.SIGTERM, signal.SIGINT):
+        signal.signal(sig, lambda *_: stop.set())
+    with lab:
+        for cmd in args.fault:
+            reply = lab.table.execute(cmd)
+            print(f"{cmd}: {reply}", flush=True)
+            if not reply.startswith("ok"):
+                return 2
+        a = lab.addresses()
+        if a.meter_resource:
+            print(f"meter   {a.meter_resource}", flush=True)
+        if a.board_device:
+            print(f"board   {a.board_device}" + (f"  (link {a.board_link})" if a.board_link else ""), flush=True)
+        if a.control:
+            print(f"control {a.control[0]} {a.control[1]}", flush=True)
+        print(f"chamber seed {args.seed}, {args.speed:g}× real time; Ctrl-C stops", flush=True)
+        stop.wait()
+    return 0
+
+
 # ---------------------------------------------------------------- main
 
 
@@ -474,11 +560,13 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"soaklog {__version__}")
     parser.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    _add_demo(sub)
     _add_run(sub)
     _add_check(sub)
     _add_status(sub)
     _add_convert(sub)
     _add_export(sub)
+    _add_simulate(sub)
     _add_bench(sub)
     return parser
 
