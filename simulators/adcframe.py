@@ -75,7 +75,8 @@ Commands are lines of ASCII ended by CR, LF or both; words are case-insensitive
 and separated by spaces. A command may end with ``~`` and the 4-hex CRC of the
 text before the ``~``; a board refuses a command whose CRC is wrong
 (``E <WORD> checksum …``). Commands are answered in the order received, between
-data frames.
+data frames, one reply line each. A reply leaves before the first data frame
+made with the settings it changed; that frame has flag 04 set.
 
 ===============  ====================================  ===========================================
 command          does                                  reply

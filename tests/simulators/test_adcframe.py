@@ -8,6 +8,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+import simulators.adcframe as adcframe
 from daq.errors import InputError
 from simulators.adcframe import (
     MAX_CHANNELS,
@@ -376,7 +377,8 @@ def test_any_chunking_of_a_valid_stream_gives_every_record(
 def test_garbage_between_frames_costs_no_frame_and_fakes_none(
     items: list[tuple[Frame | Reply, bytes]], cuts: list[int]
 ) -> None:
-    stream = b"".join(encode(r) + junk for r, junk in items)
+    # the final line end closes a candidate the last garbage may have opened
+    stream = b"".join(encode(r) + junk for r, junk in items) + b"\n"
     out = feed_all(chunked(stream, cuts))
     assert valid(out) == [r for r, _ in items]
     if any(junk.strip(b" \t\r\n") for _, junk in items):
@@ -414,3 +416,13 @@ def test_decoder_never_raises_on_arbitrary_bytes(pieces: list[bytes]) -> None:
 @given(st.lists(st.sampled_from([b"@", b"~", b"\r\n", b"D ", b"0", b"A", b"G", b" ", b"\xff", b"R WHO a=b"]), max_size=60))
 def test_decoder_never_raises_on_near_miss_frames(pieces: list[bytes]) -> None:
     feed_all(pieces)
+
+
+def test_the_documented_example_frame_decodes_to_what_the_text_says() -> None:
+    doc = adcframe.__doc__ or ""
+    example = next(line.strip() for line in doc.splitlines() if line.strip().startswith("@D "))
+    assert example.endswith("\\r\\n")  # the line end is written out as text
+    line = example[: -len("\\r\\n")].encode("ascii") + b"\r\n"
+    # "sequence 42, board time 127 944 ms, 138.5055 ohm -> 2 904 671 counts, and an open input"
+    assert FrameDecoder().feed(line) == [Frame(42, 127_944, 0x01, (2_904_671, FS24 - 1), "GO")]
+    assert int(line[-6:-2], 16) == crc_ref(line[1:-7])
