@@ -289,6 +289,15 @@ class AdcBoardSimulator:
             self._cond.notify_all()
         self._wake()
 
+    def clear_faults(self) -> None:
+        """End every fault (the same as ``clear()``, named as on the other simulators)."""
+        self.clear()
+
+    def active_faults(self) -> list[str]:
+        """Names of the faults in force, sorted."""
+        with self._cond:
+            return sorted(self._faults)
+
     def status(self) -> dict[str, object]:
         """Faults in force, streaming state, settings and counters, as JSON-ready values."""
         device_path = self.device_path

@@ -406,6 +406,9 @@ def test_control_table_reports_and_refuses(make: Callable[..., tuple[AdcBoardSim
     assert table.execute("clear sparks").startswith("error ")
     assert table.execute("fault badsum") == "ok badsum"
     assert json.loads(table.execute("status")[3:])["badsum_remaining"] is None
+    assert board.active_faults() == ["badsum", "partial"]
+    board.clear_faults()
+    assert board.active_faults() == []
 
 
 # ---------------------------------------------------------------- construction and clean-up
