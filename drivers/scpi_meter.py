@@ -1,0 +1,744 @@
+"""SCPI ohmmeters over VISA: pure reply parsing, command profiles, and a driver that recovers by itself.
+
+The driver opens the instrument through ``pyvisa.ResourceManager(backend)``,
+checks who answers, configures one fixed range (so the test current is known),
+and reads one comma-separated reply per scan. Instrument trouble becomes a
+status on the readings, never an exception: after a timeout or a lost link the
+session is closed (never ``clear()``-ed, which hangs on a dead socket) and
+re-opened after a capped exponential back-off, so a late answer can never be
+taken for the reply to a later query.
+
+Commands live in ``MeterProfile`` templates only; placeholders are
+``{range}``, ``{channels}``, ``{nplc}`` and ``{state}``.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import re
+import select
+import socket
+import string
+import threading
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Literal, Protocol, TypeVar
+
+import pyvisa
+from pyvisa.constants import StatusCode
+
+from daq.clock import SystemClock
+from daq.errors import ConfigError, ConnectionLost, InputError, InstrumentError, InstrumentTimeout
+from drivers.base import Health, RawReading, failed_scan
+
+if TYPE_CHECKING:
+    from daq.config import InstrumentConfig
+
+__all__ = [
+    "OVERLOAD",
+    "NOT_A_NUMBER",
+    "PROFILES",
+    "Backoff",
+    "Clock",
+    "MeterProfile",
+    "ReplyGarbled",
+    "ScpiMeter",
+    "format_channel_list",
+    "parse_error_entry",
+    "parse_reply",
+    "profile_named",
+]
+
+#: SCPI-1999 vol. 1, 7.2.1 (from memory): +9.9E37 stands for an over-range (infinite) reading
+OVERLOAD = 9.9e37
+#: SCPI-1999 vol. 1, 7.2.1 (from memory): 9.91E37 stands for not-a-number
+NOT_A_NUMBER = 9.91e37
+#: IEEE 488.2-1992, 11.5.1.1 (from memory): event status register bits
+_ESR_PON = 128
+_ESR_ERRORS = 4 | 8 | 16 | 32  # query, device-dependent, execution, command error
+#: SCPI error queues hold tens of entries; more than this is a meter that never says 0
+_MAX_ERROR_ENTRIES = 64
+_SHOWN_CHARS = 40
+
+# IEEE 488.2-1992, 8.7 (from memory): NR1/NR2/NR3 response numbers; stricter
+# than float(), which would also take "nan", "inf", "1_0" and "0x10"
+_NUMBER = re.compile(r"\s*[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?\s*", re.ASCII)
+_ERROR_ENTRY = re.compile(r'\s*([+-]?[0-9]+)\s*(?:,\s*"?(.*?)"?)?\s*', re.ASCII | re.DOTALL)
+_PLACEHOLDERS = frozenset({"range", "channels", "nplc", "state"})
+
+
+def _shown(text: str) -> str:
+    """The received text as it goes into a reason: quoted, cut to a readable length."""
+    return repr(text if len(text) <= _SHOWN_CHARS else text[:_SHOWN_CHARS] + "…")
+
+
+# --------------------------------------------------------------------- parsing
+
+
+def parse_reply(
+    text: str,
+    channels: Sequence[str],
+    t_utc_s: float,
+    *,
+    current_a: float | None = None,
+    wiring: int | None = None,
+) -> list[RawReading]:
+    """Split one comma-separated SCPI reply into one reading per channel; never raises, never invents a number.
+
+    A reply that does not hold exactly one plain number per channel makes every
+    channel ``garbage`` (the values cannot be told apart). Per value: the
+    SCPI not-a-number code is ``error``, an overload (either sign) is
+    ``overload``, a negative resistance is ``out_of_range``.
+    """
+    if not channels:
+        return []
+    if not isinstance(text, str):
+        return failed_scan(channels, t_utc_s, "garbage", f"reply is not text: {type(text).__name__}")
+    body = text.strip()
+    fields = body.split(",") if body else []
+    if len(fields) != len(channels):
+        reason = f"expected {len(channels)} value(s), got {len(fields)}: {_shown(body)}"
+        return failed_scan(channels, t_utc_s, "garbage", reason)
+    bad = [f for f in fields if _NUMBER.fullmatch(f) is None]
+    if bad:
+        return failed_scan(channels, t_utc_s, "garbage", f"not a number {_shown(bad[0].strip())} in {_shown(body)}")
+    out = []
+    for channel, field_text in zip(channels, fields, strict=True):
+        value = float(field_text)
+        status, reason = "ok", ""
+        if math.isclose(value, NOT_A_NUMBER, rel_tol=1e-9):
+            status, reason = "error", "the meter sent not-a-number (9.91E37) for this reading"
+        elif not abs(value) < OVERLOAD:
+            status, reason = "overload", f"the meter reports over range ({field_text.strip()})"
+        elif value < 0.0:
+            status, reason = "out_of_range", f"negative resistance {field_text.strip()} ohm; check the wiring"
+        out.append(
+            RawReading(
+                channel,
+                t_utc_s,
+                value if status == "ok" else math.nan,
+                "ohm",
+                status,
+                reason,
+                current_a,
+                wiring,
+            )
+        )
+    return out
+
+
+def parse_error_entry(text: str) -> tuple[int, str] | None:
+    """``(code, message)`` from one ``SYSTem:ERRor?`` answer such as ``-113,"Undefined header"``; None if it is not one."""
+    m = _ERROR_ENTRY.fullmatch(text)
+    if m is None:
+        return None
+    return int(m.group(1)), (m.group(2) or "")
+
+
+def format_channel_list(channels: Sequence[str]) -> str:
+    """A SCPI channel list, ``(@101:105,110)``: runs of consecutive numbers joined by a colon.
+
+    SCPI-1999 vol. 1, 8.3.2 (from memory): channel lists are ``(@...)`` with
+    ``,`` between entries and ``:`` for a range.
+    """
+    if not channels:
+        return "(@)"
+    if not all(c.isascii() and c.isdigit() for c in channels):
+        return "(@" + ",".join(channels) + ")"
+    parts: list[str] = []
+    numbers = [int(c) for c in channels]
+    start = prev = numbers[0]
+    for n in [*numbers[1:], None]:
+        if n is not None and n == prev + 1:
+            prev = n
+            continue
+        parts.append(str(start) if start == prev else f"{start}:{prev}")
+        if n is not None:
+            start = prev = n
+    return "(@" + ",".join(parts) + ")"
+
+
+# -------------------------------------------------------------------- profiles
+
+
+@dataclass(frozen=True)
+class MeterProfile:
+    """The commands one family of meters understands, as templates; an empty template means "no such command".
+
+    ``event_status`` is sent in the same message as ``read`` (``READ?;*ESR?``)
+    so every scan also tells whether the meter was reset (power-on bit) or
+    logged an error, at no extra round trip. Leave it empty for meters that
+    do not join replies of a compound message with ``;``.
+    """
+
+    name: str
+    identify: str = "*IDN?"
+    reset: str = "*RST"
+    clear: str = "*CLS"
+    configure_2w: str = "CONF:RES {range},{channels}"
+    configure_4w: str = "CONF:FRES {range},{channels}"
+    nplc_2w: str = "SENS:RES:NPLC {nplc},{channels}"
+    nplc_4w: str = "SENS:FRES:NPLC {nplc},{channels}"
+    offset_compensation_2w: str = "SENS:RES:OCOM {state},{channels}"
+    offset_compensation_4w: str = "SENS:FRES:OCOM {state},{channels}"
+    scan: str = "ROUT:SCAN {channels}"
+    read: str = "READ?"
+    event_status: str = "*ESR?"
+    error_query: str = "SYST:ERR?"
+    measure_2w: str = "MEAS:RES? {channels}"
+    measure_4w: str = "MEAS:FRES? {channels}"
+    autorange: str = "AUTO"
+    on: str = "ON"
+    off: str = "OFF"
+    max_channels: int = 1000
+    #: measuring current per ohms range, ``((range_ohm, current_a), ...)``: typical of
+    #: bench meters (common practice, no published source; a meter's data sheet rules)
+    test_current_a: tuple[tuple[float, float], ...] = (
+        (100.0, 1e-3),
+        (1_000.0, 1e-3),
+        (10_000.0, 100e-6),
+        (100_000.0, 10e-6),
+        (1_000_000.0, 5e-6),
+    )
+
+    def __post_init__(self) -> None:
+        for f in _TEMPLATE_FIELDS:
+            template = getattr(self, f)
+            try:
+                names = {p[1] for p in string.Formatter().parse(template) if p[1] is not None}
+            except ValueError as exc:
+                raise InputError(f"profile {self.name!r}: template {f} = {template!r} is malformed: {exc}") from None
+            unknown = names - _PLACEHOLDERS
+            if unknown:
+                raise InputError(
+                    f"profile {self.name!r}: template {f} = {template!r} uses {sorted(unknown)}; "
+                    f"placeholders are {{{'}, {'.join(sorted(_PLACEHOLDERS))}}}"
+                )
+
+    def with_commands(self, commands: Mapping[str, str]) -> MeterProfile:
+        """This profile with single templates replaced (the configuration's ``commands`` table)."""
+        unknown = sorted(set(commands) - set(_TEMPLATE_FIELDS))
+        if unknown:
+            raise InputError(f"unknown command name(s) {unknown}; known: {', '.join(_TEMPLATE_FIELDS)}")
+        return dataclasses.replace(self, **dict(commands))
+
+    def current_for_range(self, range_ohm: float | None) -> float | None:
+        """The test current of the range that holds ``range_ohm``; None on autorange or past the table."""
+        if range_ohm is None:
+            return None
+        for rng, current_a in sorted(self.test_current_a):
+            if range_ohm <= rng:
+                return current_a
+        return None
+
+    def render(self, template: str, **values: str) -> str:
+        """One command from a template; a missing channel list leaves no dangling comma."""
+        return template.format(**values).strip().rstrip(",").strip()
+
+
+_TEMPLATE_FIELDS: tuple[str, ...] = tuple(
+    f.name for f in dataclasses.fields(MeterProfile) if f.type == "str" and f.name != "name"
+)
+
+#: profiles by name: ``generic`` (SCPI-1999 with a scanner card), ``basic`` (the
+#: same without the per-scan status check), ``bench`` (one input, no card)
+PROFILES: dict[str, MeterProfile] = {
+    "generic": MeterProfile("generic"),
+    "basic": MeterProfile("basic", event_status=""),
+    "bench": MeterProfile(
+        "bench",
+        configure_2w="CONF:RES {range}",
+        configure_4w="CONF:FRES {range}",
+        nplc_2w="SENS:RES:NPLC {nplc}",
+        nplc_4w="SENS:FRES:NPLC {nplc}",
+        # many bench meters offer offset compensation in 4-wire only (common practice)
+        offset_compensation_2w="",
+        offset_compensation_4w="SENS:FRES:OCOM {state}",
+        scan="",
+        measure_2w="MEAS:RES?",
+        measure_4w="MEAS:FRES?",
+        max_channels=1,
+    ),
+}
+
+
+def profile_named(name: str, commands: Mapping[str, str] | None = None) -> MeterProfile:
+    """A profile from ``PROFILES`` with the ``commands`` overrides applied."""
+    try:
+        profile = PROFILES[name]
+    except KeyError:
+        raise InputError(f"unknown meter profile {name!r}; known: {', '.join(PROFILES)}") from None
+    return profile.with_commands(commands) if commands else profile
+
+
+# -------------------------------------------------------------------- the driver
+
+
+class ReplyGarbled(InstrumentError):
+    """An answer that is not ASCII text or not what the command answers."""
+
+
+@dataclass(frozen=True)
+class Backoff:
+    """Reconnect delays: ``initial_s``, multiplied by ``factor`` after each failure, at most ``max_s``."""
+
+    initial_s: float = 1.0
+    factor: float = 2.0
+    max_s: float = 60.0
+
+    def __post_init__(self) -> None:
+        if not (self.initial_s >= 0 and self.factor >= 1 and self.max_s >= self.initial_s):
+            raise InputError(f"back-off needs initial_s >= 0, factor >= 1 and max_s >= initial_s, got {self}")
+
+    def delay_s(self, failures: int) -> float:
+        """The wait after ``failures`` consecutive failures (1 for the first)."""
+        return min(self.initial_s * self.factor ** max(failures - 1, 0), self.max_s)
+
+
+class Clock(Protocol):
+    """What the driver needs of time: UTC for stamps, a monotonic line for the back-off."""
+
+    def utc_s(self) -> float: ...
+
+    def monotonic_s(self) -> float: ...
+
+
+_T = TypeVar("_T")
+Wiring = Literal[2, 4]
+
+
+class ScpiMeter:
+    """One SCPI ohmmeter (with or without a scanner card) as a ``Driver``.
+
+    Args:
+        name: the instrument's name in messages and health (``dmm1``).
+        resource: a VISA resource string, used as given.
+        channels: the meter's own channel names in scan order (``"101"``…).
+        wiring: 2 or 4: the meter's resistance function.
+        range_ohm: a fixed range (the smallest that holds this value), or
+            None for autorange, which changes the test current with the range.
+        nplc: integration time in power-line cycles.
+        offset_compensation: measure with the current on and off to cancel thermal EMFs.
+        profile: the meter's command templates.
+        timeout_s: how long one reply may take (a whole scan for ``READ?``).
+        backend: the pyvisa backend (``@py``, ``file.yaml@sim``).
+        clock: an object with ``utc_s()`` and ``monotonic_s()``.
+        backoff: reconnect delays.
+        test_current_a: range -> current table replacing the profile's.
+    """
+
+    def __init__(
+        self,
+        name: str,
+        resource: str,
+        channels: Sequence[str],
+        *,
+        wiring: Wiring = 4,
+        range_ohm: float | None = 1000.0,
+        nplc: float = 1.0,
+        offset_compensation: bool = True,
+        profile: MeterProfile = PROFILES["generic"],
+        timeout_s: float = 5.0,
+        backend: str = "@py",
+        clock: Clock | None = None,
+        backoff: Backoff = Backoff(),
+        test_current_a: Mapping[float, float] | None = None,
+    ) -> None:
+        channels = tuple(str(c) for c in channels)
+        if not channels or len(set(channels)) != len(channels):
+            raise InputError(f"{name}: channels must be a non-empty list of distinct names, got {list(channels)}")
+        if len(channels) > profile.max_channels:
+            raise InputError(f"{name}: profile {profile.name!r} reads {profile.max_channels} channel(s), not {len(channels)}")
+        if wiring not in (2, 4):
+            raise InputError(f"{name}: a meter measures 2- or 4-wire, got wiring={wiring!r}")
+        if range_ohm is not None and not range_ohm > 0:
+            raise InputError(f"{name}: range_ohm must be positive or None (autorange), got {range_ohm!r}")
+        if not (nplc > 0 and timeout_s > 0):
+            raise InputError(f"{name}: nplc ({nplc!r}) and timeout_s ({timeout_s!r}) must be positive")
+        ocomp_template = profile.offset_compensation_4w if wiring == 4 else profile.offset_compensation_2w
+        if offset_compensation and not ocomp_template:
+            raise InputError(
+                f"{name}: profile {profile.name!r} has no {wiring}-wire offset-compensation command; "
+                "set offset_compensation = false or give the command"
+            )
+        if test_current_a is not None:
+            profile = dataclasses.replace(profile, test_current_a=tuple(sorted(test_current_a.items())))
+        self.name = name
+        self.resource = resource
+        self.channels = channels
+        self.wiring = wiring
+        self.range_ohm = range_ohm
+        self.nplc = float(nplc)
+        self.offset_compensation = offset_compensation
+        self.profile = profile
+        self.timeout_s = float(timeout_s)
+        self.backend = backend
+        self.current_a = profile.current_for_range(range_ohm)
+        self._clock: Clock = clock if clock is not None else SystemClock()
+        self._backoff = backoff
+        self._rm: pyvisa.ResourceManager | None = None
+        self._inst: pyvisa.resources.MessageBasedResource | None = None
+        self._expected_identity: str | None = None
+        self._opened_once = False
+        self._failures = 0
+        self._retry_at_s: float | None = None  # on the monotonic time line
+        self._health = Health(counters={"reconnect_attempts": 0, "instrument_errors": 0, "power_ons": 0})
+        self._lock = threading.RLock()
+        self._read_message = (
+            f"{profile.read};{profile.event_status}" if profile.event_status else profile.read
+        )
+
+    @classmethod
+    def from_config(
+        cls, cfg: InstrumentConfig, clock: Clock | None = None, *, channels: Sequence[str]
+    ) -> ScpiMeter:
+        """The driver for one ``[[instrument]]`` of a station (``driver = "scpi"``) and its channels' inputs.
+
+        Raises:
+            ConfigError: not an scpi instrument, an unknown profile or command name.
+        """
+        key = f"instrument {cfg.name}"
+        if cfg.driver != "scpi":
+            raise ConfigError(f"driver is {cfg.driver!r}; ScpiMeter drives 'scpi' instruments", key=f"{key}.driver")
+        try:
+            profile = profile_named(cfg.profile, cfg.commands)
+        except InputError as exc:
+            raise ConfigError(str(exc), key=f"{key}.commands" if cfg.commands else f"{key}.profile") from None
+        try:
+            return cls(
+                cfg.name,
+                cfg.resource,
+                channels,
+                wiring=4 if cfg.wiring == 4 else 2,
+                range_ohm=cfg.range_ohm,
+                nplc=cfg.nplc,
+                offset_compensation=cfg.offset_compensation,
+                profile=profile,
+                timeout_s=cfg.timeout_s,
+                backend=cfg.backend,
+                clock=clock,
+                test_current_a=cfg.test_current_a,
+            )
+        except InputError as exc:
+            raise ConfigError(str(exc), key=key) from None
+
+    # --- the Driver interface -------------------------------------------------------
+
+    def open(self) -> None:
+        """Connect, check identity, reset, configure and check the error queue.
+
+        Raises:
+            InstrumentError: nothing answers, someone else answers, or the
+                meter refused part of the configuration (the entries listed).
+        """
+        with self._lock:
+            self._drop()
+            try:
+                self._connect()
+            except InstrumentError as exc:
+                self._failed(exc, backoff=True)
+                raise
+
+    def close(self) -> None:
+        """Close the session; never raises."""
+        with self._lock:
+            self._drop()
+
+    def health(self) -> dict[str, object]:
+        # no lock: a scan may hold it for a whole timeout, and a snapshot of
+        # plain fields is safe to take while they change
+        return self._health.snapshot()
+
+    def read_scan(self) -> list[RawReading]:
+        """One reading per channel; trouble becomes statuses, and reconnecting waits for the back-off."""
+        with self._lock:
+            if self._inst is not None:
+                state = _stream_state(self._inst)
+                if state == "closed":
+                    exc = ConnectionLost(self._where("the connection was closed by the instrument"), resource=self.resource)
+                    return self._failed_scan(exc, "lost", backoff=True)
+                if state == "stale":
+                    # bytes nobody asked for: the stream is out of step; start afresh now
+                    self._drop()
+            if self._inst is None:
+                now_s = self._clock.monotonic_s()
+                if self._retry_at_s is not None and now_s < self._retry_at_s:
+                    wait_s = self._retry_at_s - now_s
+                    why = self._health.last_error or "not connected"
+                    return failed_scan(self.channels, self._clock.utc_s(), "lost", f"{why} (retry in {wait_s:.1f} s)")
+                try:
+                    self._connect()
+                except InstrumentError as exc:
+                    return self._failed_scan(exc, "lost", backoff=True)
+            try:
+                return self._scan()
+            except InstrumentTimeout as exc:
+                lost = self._inst is not None and _stream_state(self._inst) == "closed"
+                return self._failed_scan(exc, "lost" if lost else "timeout", backoff=True)
+            except ReplyGarbled as exc:
+                self._health.bad_frames += 1
+                return self._failed_scan(exc, "garbage", backoff=False)
+            except InstrumentError as exc:
+                return self._failed_scan(exc, "lost", backoff=True)
+
+    # --- connecting ------------------------------------------------------------------
+
+    def _connect(self) -> None:
+        if self._opened_once:
+            self._health.counters["reconnect_attempts"] += 1
+        rm = self._resource_manager()
+        try:
+            inst = rm.open_resource(
+                self.resource,
+                read_termination="\n",
+                write_termination="\n",
+                timeout=_visa_ms(self.timeout_s),
+                open_timeout=_visa_ms(self.timeout_s),
+            )
+        except pyvisa.errors.VisaIOError as exc:
+            raise ConnectionLost(self._where(f"cannot open the resource: {exc.description}"), resource=self.resource) from exc
+        except Exception as exc:  # pyvisa-py raises a bare Exception when the TCP connect times out
+            raise ConnectionLost(self._where(f"cannot open the resource: {exc}"), resource=self.resource) from exc
+        if not isinstance(inst, pyvisa.resources.MessageBasedResource):
+            inst.close()
+            raise InstrumentError(self._where("is not a message-based resource; SCPI needs one"), resource=self.resource)
+        self._inst = inst
+        try:
+            self._identify()
+            self._configure()
+        except InstrumentError:
+            self._drop()
+            raise
+        self._health.connected = True
+        self._health.next_retry_utc_s = None
+        self._retry_at_s = None
+        self._failures = 0
+        if self._opened_once:
+            self._health.reconnects += 1
+        self._opened_once = True
+
+    def _identify(self) -> None:
+        identity = self._query(self.profile.identify).strip()
+        if not identity or not identity.isprintable():
+            raise ReplyGarbled(
+                self._where(f"answered {self.profile.identify!r} with {_shown(identity)}, not an identity"),
+                resource=self.resource,
+                command=self.profile.identify,
+            )
+        if self._expected_identity is not None and identity != self._expected_identity:
+            raise InstrumentError(
+                self._where(
+                    f"now answers as {identity!r}, not {self._expected_identity!r}; "
+                    "another instrument at this address? check it and restart"
+                ),
+                resource=self.resource,
+                command=self.profile.identify,
+            )
+        self._expected_identity = identity
+        self._health.identity = identity
+
+    def _configure(self) -> None:
+        p = self.profile
+        values = {
+            "range": p.autorange if self.range_ohm is None else f"{self.range_ohm:.10g}",
+            "channels": format_channel_list(self.channels),
+            "nplc": f"{self.nplc:.10g}",
+            "state": p.on if self.offset_compensation else p.off,
+        }
+        four = self.wiring == 4
+        templates = [
+            p.reset,
+            p.clear,
+            p.configure_4w if four else p.configure_2w,
+            p.nplc_4w if four else p.nplc_2w,
+            p.offset_compensation_4w if four else p.offset_compensation_2w,
+        ]
+        if len(self.channels) > 1:
+            templates.append(p.scan)
+        for template in templates:
+            if template:
+                self._write(p.render(template, **values))
+        errors = self._drain_errors()
+        if errors:
+            code, _ = errors[0]
+            listed = "; ".join(f"{c},{m!r}" for c, m in errors)
+            raise InstrumentError(
+                self._where(f"refused the configuration: {listed}; check the profile and its commands"),
+                resource=self.resource,
+                scpi_code=code,
+            )
+
+    def _drain_errors(self) -> list[tuple[int, str]]:
+        """Read the error queue until it says 0."""
+        command = self.profile.error_query
+        if not command:
+            return []
+        entries: list[tuple[int, str]] = []
+        for _ in range(_MAX_ERROR_ENTRIES):
+            reply = self._query(command)
+            entry = parse_error_entry(reply)
+            if entry is None:
+                raise ReplyGarbled(self._where(f"answered {command!r} with {_shown(reply)}"), resource=self.resource, command=command)
+            if entry[0] == 0:
+                return entries
+            entries.append(entry)
+            self._health.counters["instrument_errors"] += 1
+        raise ReplyGarbled(self._where(f"error queue did not empty after {_MAX_ERROR_ENTRIES} reads of {command!r}"), resource=self.resource, command=command)
+
+    # --- reading ---------------------------------------------------------------------
+
+    def _scan(self) -> list[RawReading]:
+        started_s = self._clock.utc_s()
+        reply = self._query(self._read_message)
+        t_utc_s = 0.5 * (started_s + self._clock.utc_s())  # the middle of the scan
+        self._health.reads += 1
+        body = reply
+        if self.profile.event_status:
+            head, sep, tail = reply.rpartition(";")
+            body = head if sep else ""
+            try:
+                esr = int(tail.strip())
+            except ValueError:
+                raise ReplyGarbled(self._where(f"answered {self._read_message!r} with {_shown(reply)}"), resource=self.resource, command=self._read_message) from None
+            if esr & _ESR_PON:
+                self._health.counters["power_ons"] += 1
+                self._note(f"{self.name} reports a power-on (*ESR? bit 7): settings lost; configuring again")
+                self._drop()  # re-opened and configured on the next call, without back-off
+                return failed_scan(self.channels, t_utc_s, "error", self._health.last_error)
+            if esr & _ESR_ERRORS:
+                entries = self._drain_errors()
+                listed = "; ".join(f"{c},{m!r}" for c, m in entries) or f"*ESR? = {esr}"
+                self._note(f"{self.name} logged an error during the scan: {listed}")
+                return failed_scan(self.channels, t_utc_s, "error", self._health.last_error)
+        readings = parse_reply(body, self.channels, t_utc_s, current_a=self.current_a, wiring=self.wiring)
+        if any(r.status == "garbage" for r in readings):
+            raise ReplyGarbled(self._where(f"sent a scan that does not parse: {readings[0].reason}"), resource=self.resource, command=self.profile.read)
+        self._health.last_ok_utc_s = t_utc_s
+        return readings
+
+    # --- I/O, translated once --------------------------------------------------------
+
+    def _query(self, command: str) -> str:
+        inst = self._require()
+        return self._io(command, lambda: inst.query(command))
+
+    def _write(self, command: str) -> None:
+        inst = self._require()
+        self._io(command, lambda: inst.write(command))
+
+    def _require(self) -> pyvisa.resources.MessageBasedResource:
+        if self._inst is None:
+            raise ConnectionLost(self._where("is not open"), resource=self.resource)
+        return self._inst
+
+    def _io(self, command: str, op: Callable[[], _T]) -> _T:
+        try:
+            return op()
+        except pyvisa.errors.VisaIOError as exc:
+            if exc.error_code == StatusCode.error_timeout:
+                advice = (
+                    "check the read termination (this driver ends lines with \\n) and that the port speaks SCPI"
+                    if command == self.profile.identify
+                    else "check the read termination, or raise timeout_s if a scan takes longer"
+                )
+                err = InstrumentTimeout(
+                    f"no reply to {command!r} from {self.name} ({self.resource}) within {self.timeout_s:g} s; {advice}",
+                    resource=self.resource,
+                    command=command,
+                )
+                err.timeout_s = self.timeout_s  # type: ignore[attr-defined]
+                raise err from exc
+            raise ConnectionLost(self._where(f"failed on {command!r}: {exc.description}"), resource=self.resource, command=command) from exc
+        except ConnectionRefusedError as exc:
+            raise ConnectionLost(
+                self._where("refused the connection: nothing listens there; is the instrument on and the port right?"),
+                resource=self.resource,
+                command=command,
+            ) from exc
+        except OSError as exc:
+            raise ConnectionLost(self._where(f"lost the connection on {command!r}: {exc}"), resource=self.resource, command=command) from exc
+        except UnicodeDecodeError as exc:
+            raise ReplyGarbled(
+                self._where(f"answered {command!r} with bytes that are not ASCII ({exc.reason} at byte {exc.start})"),
+                resource=self.resource,
+                command=command,
+            ) from exc
+
+    def _resource_manager(self) -> pyvisa.ResourceManager:
+        if self._rm is None:
+            try:
+                self._rm = pyvisa.ResourceManager(self.backend)
+            except (OSError, ValueError, ImportError, pyvisa.errors.Error) as exc:
+                raise InstrumentError(f"{self.name}: cannot load the VISA backend {self.backend!r}: {exc}", resource=self.resource) from exc
+        return self._rm
+
+    # --- bookkeeping -----------------------------------------------------------------
+
+    def _where(self, what: str) -> str:
+        return f"{self.name} ({self.resource}) {what}"
+
+    def _note(self, message: str) -> None:
+        self._health.last_error = message
+        self._health.last_error_utc_s = self._clock.utc_s()
+        self._health.errors += 1
+
+    def _drop(self) -> None:
+        """Close the session without ``clear()`` (which hangs on a dead socket)."""
+        inst, self._inst = self._inst, None
+        self._health.connected = False
+        if inst is not None:
+            try:
+                inst.close()
+            except (pyvisa.errors.Error, OSError):
+                pass
+
+    def _failed(self, exc: InstrumentError, *, backoff: bool) -> None:
+        self._drop()
+        self._note(str(exc))
+        if isinstance(exc, InstrumentTimeout):
+            self._health.timeouts += 1
+        if backoff:
+            self._failures += 1
+            delay_s = self._backoff.delay_s(self._failures)
+        else:
+            delay_s = 0.0
+        self._retry_at_s = self._clock.monotonic_s() + delay_s
+        self._health.next_retry_utc_s = self._clock.utc_s() + delay_s
+
+    def _failed_scan(self, exc: InstrumentError, status: str, *, backoff: bool) -> list[RawReading]:
+        self._failed(exc, backoff=backoff)
+        return failed_scan(self.channels, self._clock.utc_s(), status, str(exc))
+
+
+def _visa_ms(seconds: float) -> int:
+    """VISA timeouts are whole milliseconds."""
+    return max(1, round(seconds * 1000.0))
+
+
+def _stream_state(inst: object) -> Literal["idle", "closed", "stale", "unknown"]:
+    """Whether a pyvisa-py TCP socket session was closed by its peer or holds unrequested bytes.
+
+    pyvisa-py does not notice a closed peer: the next query spins a CPU core
+    for the whole timeout. Looking at the socket first (no I/O, no wait)
+    catches it. Sessions of other backends are ``unknown`` and left alone.
+    """
+    try:
+        session = inst.visalib.sessions[inst.session]  # type: ignore[attr-defined]
+    except (AttributeError, KeyError, TypeError, pyvisa.errors.Error):
+        return "unknown"
+    sock = getattr(session, "interface", None)
+    if not isinstance(sock, socket.socket):
+        return "unknown"
+    if getattr(session, "_pending_buffer", b""):
+        return "stale"
+    try:
+        ready, _, _ = select.select([sock], [], [], 0)
+        if not ready:
+            return "idle"
+        data = sock.recv(1, socket.MSG_PEEK)
+    except BlockingIOError:
+        return "idle"
+    except (OSError, ValueError):
+        return "closed"
+    return "stale" if data else "closed"
