@@ -19,7 +19,7 @@ from daq.config import ChannelConfig, StationConfig
 from daq.sensors.flags import Flag
 from daq.sensors.measurement import Excitation, MeasurementChain
 from daq.store import STATUS_CODES, SampleBatch
-from drivers.base import RawReading
+from drivers.base import STATUSES, RawReading, RawScan
 
 __all__ = ["ChannelPipeline", "Pipeline", "SHORT_FRACTION"]
 
@@ -74,25 +74,81 @@ class Pipeline:
     def channel_for(self, instrument: str, input_name: str) -> ChannelPipeline | None:
         return self._by_input.get((instrument, input_name))
 
-    def convert(self, instrument: str, readings: Sequence[RawReading]) -> SampleBatch:
-        """Convert one instrument's readings (any number of scans) to a sample batch.
+    def convert(self, instrument: str, scans: Sequence[Sequence[RawReading]]) -> SampleBatch:
+        """Convert one instrument's scans (any number) to one sample batch.
 
-        Readings from inputs no channel uses are dropped (a scanner card may
-        report more inputs than are wired).
+        A scan is a ``RawScan`` (columnar, the fast path) or any sequence of
+        ``RawReading``. Readings from inputs no channel uses are dropped (a
+        scanner card may report more inputs than are wired).
         """
-        groups: dict[str, list[RawReading]] = {}
-        for r in readings:
-            groups.setdefault(r.channel, []).append(r)
+        cols = _Columns()
+        for scan in scans:
+            cols.add(scan)
+        if not cols.n:
+            return _empty()
+        names, t_ms, raw, status, current = cols.arrays()
+        order_names = sorted(set(names.tolist())) if names.dtype == object else sorted(set(names))
         parts: list[SampleBatch] = []
         ambient = self.config.ambient_c
-        for input_name, rs in groups.items():
+        for input_name in order_names:
             cp = self._by_input.get((instrument, input_name))
             if cp is None:
                 continue
-            parts.append(_convert_group(cp, rs, ambient))
+            idx = np.flatnonzero(names == input_name)
+            parts.append(_convert_group(cp, t_ms[idx], raw[idx], status[idx], current[idx], ambient))
         if not parts:
             return _empty()
         return parts[0] if len(parts) == 1 else SampleBatch.concat(parts)
+
+
+class _Columns:
+    """Accumulates scans as column chunks."""
+
+    def __init__(self) -> None:
+        self.n = 0
+        self._names: list[np.ndarray] = []
+        self._t: list[np.ndarray] = []
+        self._raw: list[np.ndarray] = []
+        self._status: list[np.ndarray] = []
+        self._current: list[np.ndarray] = []
+
+    def add(self, scan: Sequence[RawReading]) -> None:
+        m = len(scan)
+        if m == 0:
+            return
+        if isinstance(scan, RawScan):
+            self._names.append(np.asarray(scan.channels, dtype=object))
+            self._t.append(np.full(m, int(round(scan.t_utc_s * 1000.0)), dtype=np.int64))
+            self._raw.append(scan.values)
+            self._status.append(_DRIVER_TO_STORE[scan.status.astype(np.int64)])
+            cur = scan.current_a
+            if isinstance(cur, (list, tuple)):
+                self._current.append(np.array([np.nan if c is None else c for c in cur], dtype=np.float64))
+            else:
+                self._current.append(np.full(m, np.nan if cur is None else float(cur)))
+        else:
+            self._names.append(np.array([r.channel for r in scan], dtype=object))
+            self._t.append(np.array([int(round(r.t_utc_s * 1000.0)) for r in scan], dtype=np.int64))
+            self._raw.append(np.array([r.value for r in scan], dtype=np.float64))
+            self._status.append(
+                np.array([STATUS_CODES.get(r.status, STATUS_CODES["error"]) for r in scan], dtype=np.int64)
+            )
+            self._current.append(
+                np.array([np.nan if r.current_a is None else r.current_a for r in scan], dtype=np.float64)
+            )
+        self.n += m
+
+    def arrays(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        return (
+            np.concatenate(self._names), np.concatenate(self._t), np.concatenate(self._raw),
+            np.concatenate(self._status), np.concatenate(self._current),
+        )
+
+
+#: driver status index (drivers.base.STATUSES) to stored status code
+_DRIVER_TO_STORE = np.array(
+    [STATUS_CODES.get(name, STATUS_CODES["error"]) for name in STATUSES], dtype=np.int64
+)
 
 
 def _empty() -> SampleBatch:
@@ -100,36 +156,40 @@ def _empty() -> SampleBatch:
     return SampleBatch(z.astype(np.int64), z.astype(np.int64), z, z, z, z.astype(np.int64), z.astype(np.int64))
 
 
-def _convert_group(cp: ChannelPipeline, rs: Sequence[RawReading], ambient_c: float) -> SampleBatch:
-    n = len(rs)
-    raw = np.fromiter((r.value for r in rs), dtype=np.float64, count=n)
-    t_ms = np.fromiter((int(round(r.t_utc_s * 1000.0)) for r in rs), dtype=np.int64, count=n)
-    ok = np.fromiter((r.status == "ok" for r in rs), dtype=bool, count=n)
-    status = np.fromiter((STATUS_CODES.get(r.status, STATUS_CODES["error"]) for r in rs), dtype=np.int64, count=n)
+def _convert_group(
+    cp: ChannelPipeline,
+    t_ms: np.ndarray,
+    raw: np.ndarray,
+    status: np.ndarray,
+    current: np.ndarray,
+    ambient_c: float,
+) -> SampleBatch:
+    n = raw.shape[0]
+    status = status.copy()
+    ok = status == STATUS_CODES["ok"]
     if cp.open_on_overload:
         # the range holds the sensor's whole curve, so an overload can only be an open sensor
         status[status == STATUS_CODES["overload"]] = STATUS_CODES["open"]
     temp = np.full(n, np.nan)
     u = np.full(n, np.nan)
     flags = np.zeros(n, dtype=np.int64)
-
     short = ok & (raw < cp.short_below_ohm)
     status[short] = STATUS_CODES["short"]
-    conv_mask = ok & ~short
-    if conv_mask.any():
-        currents = {r.current_a for r, m in zip(rs, conv_mask, strict=True) if m and r.current_a is not None}
-        if len(currents) <= 1:
-            chain = cp.with_current(currents.pop()) if currents else cp.chain
-            _apply(chain, raw, conv_mask, temp, u, flags, status, ambient_c)
-        else:  # autoranging meter: the current changed within the batch
-            for current in sorted(currents):
-                mask = conv_mask & np.fromiter((r.current_a == current for r in rs), dtype=bool, count=n)
-                _apply(cp.with_current(current), raw, mask, temp, u, flags, status, ambient_c)
-            rest = conv_mask & np.fromiter((r.current_a is None for r in rs), dtype=bool, count=n)
+    conv = ok & ~short
+    if conv.any():
+        cur = current[conv]
+        known = cur[np.isfinite(cur)]
+        distinct = np.unique(known) if known.size else known
+        if distinct.size <= 1 and known.size in (0, cur.size):
+            chain = cp.with_current(float(distinct[0])) if distinct.size else cp.chain
+            _apply(chain, raw, conv, temp, u, flags, status, ambient_c)
+        else:  # an autoranging meter: the current changed within the batch
+            for c in distinct.tolist():
+                _apply(cp.with_current(c), raw, conv & (current == c), temp, u, flags, status, ambient_c)
+            rest = conv & ~np.isfinite(current)
             if rest.any():
                 _apply(cp.chain, raw, rest, temp, u, flags, status, ambient_c)
-    raw_out = np.where(ok | np.isfinite(raw), raw, np.nan)
-    return SampleBatch(np.full(n, cp.store_id, dtype=np.int64), t_ms, raw_out, temp, u, status, flags)
+    return SampleBatch(np.full(n, cp.store_id, dtype=np.int64), t_ms, raw, temp, u, status, flags)
 
 
 def _apply(

@@ -54,7 +54,7 @@ def default_driver_factory(cfg: InstrumentConfig, clock: ServiceClock, inputs: S
     if cfg.driver == "scpi":
         from drivers.scpi_meter import ScpiMeter
 
-        return ScpiMeter.from_config(cfg, clock, inputs)
+        return ScpiMeter.from_config(cfg, clock, channels=inputs)
     if cfg.driver == "serial-adc":
         from drivers.serial_adc import SerialAdc
 
@@ -260,7 +260,8 @@ class Service:
     def _write_loop(self) -> None:
         assert self.store is not None and self.pipeline is not None and self.run_id is not None
         store, pipeline, run_id = self.store, self.pipeline, self.run_id
-        pending: list[SampleBatch] = []
+        scans: dict[str, list[Sequence[RawReading]]] = {}  # raw scans since the last commit
+        pending: list[SampleBatch] = []  # converted, not yet stored (grows while the disk refuses)
         pending_n = 0
         connected: dict[str, bool | None] = {}
         last_commit = time.monotonic()
@@ -282,19 +283,25 @@ class Service:
                 self.stats.per_instrument[item.instrument] = (
                     self.stats.per_instrument.get(item.instrument, 0) + len(item.readings)
                 )
-                batch = pipeline.convert(item.instrument, item.readings)
-                if len(batch):
-                    pending.append(batch)
-                    pending_n += len(batch)
-                    if self._on_batch is not None:
-                        self._on_batch(batch)
+                scans.setdefault(item.instrument, []).append(item.readings)
                 self._note_health(store, run_id, item, connected)
                 if item.late_s > LATE_FRACTION * self.config.instrument(item.instrument).interval_s:
                     self.stats.late_scans += 1
                     self._event(store, run_id, "scan_late",
                                 f"{item.instrument}: scan started {item.late_s:.2f} s after its slot",
                                 severity="info", data={"late_s": item.late_s})
-            if (time.monotonic() - last_commit >= self._commit_s or done) and pending:
+            if time.monotonic() - last_commit < self._commit_s and not done:
+                continue
+            # convert everything that arrived in this interval, in one go per channel
+            for instrument, raw in scans.items():
+                batch = pipeline.convert(instrument, raw)
+                if len(batch):
+                    pending.append(batch)
+                    pending_n += len(batch)
+                    if self._on_batch is not None:
+                        self._on_batch(batch)
+            scans = {}
+            if pending:
                 try:
                     store.write(run_id, SampleBatch.concat(pending) if len(pending) > 1 else pending[0])
                     self.stats.stored += pending_n
@@ -313,10 +320,8 @@ class Service:
                         pending, pending_n = self._drop_oldest(pending, pending_n)
                     if done:
                         log.error("stopping with %d readings that could not be stored", pending_n)
-                last_commit = time.monotonic()
-                self.stats.buffered = pending_n
-            elif not pending:
-                last_commit = time.monotonic()
+            self.stats.buffered = pending_n
+            last_commit = time.monotonic()
             if time.monotonic() - last_health >= 5.0 or done:
                 last_health = time.monotonic()
                 self._store_health(store, run_id)

@@ -9,14 +9,19 @@ exception: it becomes a status on the readings and a line in ``health()``.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import Literal, Protocol
+from typing import Literal, Protocol, overload
+
+import numpy as np
+import numpy.typing as npt
 
 __all__ = [
     "Status",
     "STATUSES",
+    "STATUS_INDEX",
     "RawReading",
+    "RawScan",
     "Health",
     "Driver",
     "failed_scan",
@@ -48,6 +53,9 @@ STATUSES: tuple[str, ...] = (
     "checksum",  # a frame whose checksum is wrong
     "error",  # the instrument reported an error for this reading
 )
+
+#: position of each status in STATUSES, for columnar scans
+STATUS_INDEX: dict[str, int] = {s: i for i, s in enumerate(STATUSES)}
 
 
 @dataclass(frozen=True)
@@ -87,6 +95,77 @@ class RawReading:
     @property
     def ok(self) -> bool:
         return self.status == "ok"
+
+
+class RawScan(Sequence[RawReading]):
+    """One scan of several inputs, columnar: the fast form of ``list[RawReading]``.
+
+    It is a sequence of ``RawReading`` (built on access) for code that wants
+    records, and exposes its arrays for the pipeline, so that converting a
+    scan costs numpy operations rather than one Python object per reading.
+
+    Attributes:
+        channels: input names, one per value.
+        t_utc_s: the scan's time stamp (all inputs).
+        values: ohms (NaN where the status is not ok).
+        status: indexes into ``STATUSES``.
+        reasons: one reason per input ("" when ok).
+    """
+
+    __slots__ = ("channels", "t_utc_s", "values", "status", "reasons", "unit", "current_a", "wiring")
+
+    def __init__(
+        self,
+        channels: Sequence[str],
+        t_utc_s: float,
+        values: npt.NDArray[np.float64],
+        status: npt.NDArray[np.int8],
+        reasons: Sequence[str] | None = None,
+        *,
+        unit: str = "ohm",
+        current_a: Sequence[float | None] | float | None = None,
+        wiring: Sequence[int | None] | int | None = None,
+    ) -> None:
+        n = len(channels)
+        if values.shape != (n,) or status.shape != (n,):
+            raise ValueError(f"a scan of {n} inputs needs {n} values and {n} statuses")
+        ok = status == 0
+        if np.any(ok & ~np.isfinite(values)) or np.any(~ok & ~np.isnan(values)):
+            raise ValueError("an ok value must be finite and a value that is not ok must be NaN")
+        self.channels = tuple(channels)
+        self.t_utc_s = float(t_utc_s)
+        self.values = values
+        self.status = status
+        self.reasons = tuple(reasons) if reasons is not None else ("",) * n
+        self.unit = unit
+        self.current_a = current_a
+        self.wiring = wiring
+
+    def __len__(self) -> int:
+        return len(self.channels)
+
+    @overload
+    def __getitem__(self, i: int) -> RawReading: ...
+    @overload
+    def __getitem__(self, i: slice) -> list[RawReading]: ...
+    def __getitem__(self, i: int | slice) -> RawReading | list[RawReading]:
+        if isinstance(i, slice):
+            return [self[j] for j in range(*i.indices(len(self)))]
+        if i < 0:
+            i += len(self)
+        cur = self.current_a[i] if isinstance(self.current_a, (list, tuple)) else self.current_a
+        wir = self.wiring[i] if isinstance(self.wiring, (list, tuple)) else self.wiring
+        return RawReading(
+            self.channels[i], self.t_utc_s, float(self.values[i]), self.unit,
+            STATUSES[int(self.status[i])], self.reasons[i], cur, wir,
+        )
+
+    def __iter__(self) -> Iterator[RawReading]:
+        for i in range(len(self)):
+            yield self[i]
+
+    def current_of(self, i: int) -> float | None:
+        return self.current_a[i] if isinstance(self.current_a, (list, tuple)) else self.current_a
 
 
 @dataclass
