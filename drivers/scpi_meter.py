@@ -556,15 +556,17 @@ class ScpiMeter:
         ]
         if len(self.channels) > 1:
             templates.append(p.scan)
-        for template in templates:
-            if template:
-                self._write(p.render(template, **values))
+        sent = [p.render(t, **values) for t in templates if t]
+        for command in sent:
+            self._write(command)
         errors = self._drain_errors()
         if errors:
             code, _ = errors[0]
             listed = "; ".join(f"{c},{m!r}" for c, m in errors)
             raise InstrumentError(
-                self._where(f"refused the configuration: {listed}; check the profile and its commands"),
+                self._where(
+                    f"refused the configuration: {listed} after {' | '.join(sent)}; check the profile and its commands"
+                ),
                 resource=self.resource,
                 scpi_code=code,
             )
