@@ -86,15 +86,18 @@ class Pipeline:
             cols.add(scan)
         if not cols.n:
             return _empty()
-        names, t_ms, raw, status, current = cols.arrays()
-        order_names = sorted(set(names.tolist())) if names.dtype == object else sorted(set(names))
+        codes, t_ms, raw, status, current = cols.arrays()
+        uniq = cols.names
+        # group by input with integer codes (comparing strings per channel is slow)
+        order = np.argsort(codes, kind="stable")
+        bounds = np.searchsorted(codes[order], np.arange(len(uniq) + 1))
         parts: list[SampleBatch] = []
         ambient = self.config.ambient_c
-        for input_name in order_names:
+        for k, input_name in enumerate(uniq):
             cp = self._by_input.get((instrument, input_name))
             if cp is None:
                 continue
-            idx = np.flatnonzero(names == input_name)
+            idx = order[bounds[k]:bounds[k + 1]]
             parts.append(_convert_group(cp, t_ms[idx], raw[idx], status[idx], current[idx], ambient))
         if not parts:
             return _empty()
@@ -106,6 +109,9 @@ class _Columns:
 
     def __init__(self) -> None:
         self.n = 0
+        self.names: list[str] = []  # input names, by code
+        self._code: dict[str, int] = {}
+        self._tuple_codes: dict[tuple[str, ...], np.ndarray] = {}
         self._names: list[np.ndarray] = []
         self._t: list[np.ndarray] = []
         self._raw: list[np.ndarray] = []
@@ -117,7 +123,11 @@ class _Columns:
         if m == 0:
             return
         if isinstance(scan, RawScan):
-            self._names.append(np.asarray(scan.channels, dtype=object))
+            codes = self._tuple_codes.get(scan.channels)
+            if codes is None:
+                codes = np.array([self._code_for(c) for c in scan.channels], dtype=np.int64)
+                self._tuple_codes[scan.channels] = codes
+            self._names.append(codes)
             self._t.append(np.full(m, int(round(scan.t_utc_s * 1000.0)), dtype=np.int64))
             self._raw.append(scan.values)
             self._status.append(_DRIVER_TO_STORE[scan.status.astype(np.int64)])
@@ -127,7 +137,7 @@ class _Columns:
             else:
                 self._current.append(np.full(m, np.nan if cur is None else float(cur)))
         else:
-            self._names.append(np.array([r.channel for r in scan], dtype=object))
+            self._names.append(np.array([self._code_for(r.channel) for r in scan], dtype=np.int64))
             self._t.append(np.array([int(round(r.t_utc_s * 1000.0)) for r in scan], dtype=np.int64))
             self._raw.append(np.array([r.value for r in scan], dtype=np.float64))
             self._status.append(
@@ -137,6 +147,13 @@ class _Columns:
                 np.array([np.nan if r.current_a is None else r.current_a for r in scan], dtype=np.float64)
             )
         self.n += m
+
+    def _code_for(self, name: str) -> int:
+        code = self._code.get(name)
+        if code is None:
+            code = self._code[name] = len(self.names)
+            self.names.append(name)
+        return code
 
     def arrays(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         return (
