@@ -62,8 +62,10 @@ _MAX_ERROR_ENTRIES = 64
 _SHOWN_CHARS = 40
 
 # IEEE 488.2-1992, 8.7 (from memory): NR1/NR2/NR3 response numbers; stricter
-# than float(), which would also take "nan", "inf", "1_0" and "0x10"
-_NUMBER = re.compile(r"\s*[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?\s*", re.ASCII)
+# than float(), which would also take "nan", "inf", "1_0", "0x10" and non-ASCII digits
+_NR = r"\s*[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?\s*"
+_NUMBER = re.compile(_NR, re.ASCII)
+_NUMBERS = re.compile(rf"{_NR}(?:,{_NR})*", re.ASCII)  # a whole scan in one pass
 _ERROR_ENTRY = re.compile(r'\s*([+-]?[0-9]+)\s*(?:,\s*"?(.*?)"?)?\s*', re.ASCII | re.DOTALL)
 _PLACEHOLDERS = frozenset({"range", "channels", "nplc", "state"})
 
@@ -100,31 +102,22 @@ def parse_reply(
     if len(fields) != len(channels):
         reason = f"expected {len(channels)} value(s), got {len(fields)}: {_shown(body)}"
         return failed_scan(channels, t_utc_s, "garbage", reason)
-    bad = [f for f in fields if _NUMBER.fullmatch(f) is None]
-    if bad:
-        return failed_scan(channels, t_utc_s, "garbage", f"not a number {_shown(bad[0].strip())} in {_shown(body)}")
+    if _NUMBERS.fullmatch(body) is None:
+        bad = next(f for f in fields if _NUMBER.fullmatch(f) is None)
+        return failed_scan(channels, t_utc_s, "garbage", f"not a number {_shown(bad.strip())} in {_shown(body)}")
     out = []
-    for channel, field_text in zip(channels, fields, strict=True):
+    for channel, field_text in zip(channels, fields):
         value = float(field_text)
-        status, reason = "ok", ""
+        if 0.0 <= value < OVERLOAD:  # the usual case first: a scan is mostly good readings
+            out.append(RawReading(channel, t_utc_s, value, "ohm", "ok", "", current_a, wiring))
+            continue
         if math.isclose(value, NOT_A_NUMBER, rel_tol=1e-9):
             status, reason = "error", "the meter sent not-a-number (9.91E37) for this reading"
         elif not abs(value) < OVERLOAD:
             status, reason = "overload", f"the meter reports over range ({field_text.strip()})"
-        elif value < 0.0:
+        else:
             status, reason = "out_of_range", f"negative resistance {field_text.strip()} ohm; check the wiring"
-        out.append(
-            RawReading(
-                channel,
-                t_utc_s,
-                value if status == "ok" else math.nan,
-                "ohm",
-                status,
-                reason,
-                current_a,
-                wiring,
-            )
-        )
+        out.append(RawReading(channel, t_utc_s, math.nan, "ohm", status, reason, current_a, wiring))
     return out
 
 
@@ -614,7 +607,7 @@ class ScpiMeter:
                 self._note(f"{self.name} logged an error during the scan: {listed}")
                 return failed_scan(self.channels, t_utc_s, "error", self._health.last_error)
         readings = parse_reply(body, self.channels, t_utc_s, current_a=self.current_a, wiring=self.wiring)
-        if any(r.status == "garbage" for r in readings):
+        if readings[0].status == "garbage":  # parse_reply fails a scan as a whole
             raise ReplyGarbled(self._where(f"sent a scan that does not parse: {readings[0].reason}"), resource=self.resource, command=self.profile.read)
         self._health.last_ok_utc_s = t_utc_s
         return readings

@@ -22,6 +22,7 @@ from daq.clock import SystemClock
 from daq.config import InstrumentConfig
 from daq.errors import ConfigError, ConnectionLost, InputError, InstrumentError
 from drivers.base import Health
+from drivers.bench import bench_driver_overhead
 from drivers.scpi_meter import PROFILES, Backoff, ScpiMeter, _stream_state
 from simulators.dmm import TEST_CURRENT_A, DmmSimulator
 from simulators.plant import OPEN_OHM, FixedPlant, Terminal
@@ -519,3 +520,17 @@ def test_waiting_to_reconnect_costs_almost_no_cpu_measurement(start_sim: StartSi
         assert share < 0.25  # generous: the goal is 0.05; a spin would be about 1.0
     finally:
         meter.close()
+
+
+# --- the overhead benchmark (run for its shape here, not timed) ---------------------------
+
+
+def test_overhead_benchmark_reports_its_figures() -> None:
+    result = bench_driver_overhead(channels=3, scans=40, rounds=4)
+    assert result["channels"] == 3 and result["scans"] == 40
+    for key in ("bare_us_per_reading", "bare_floats_us_per_reading", "bare_same_message_us_per_reading", "driver_us_per_reading"):
+        assert result[key] > 0
+    assert result["driver_added_us_per_reading"] == pytest.approx(
+        result["driver_us_per_reading"] - result["bare_us_per_reading"]
+    )
+    assert result["meets_target"] is (result["overhead_vs_bare"] < result["target_overhead"])
