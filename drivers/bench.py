@@ -147,4 +147,5 @@ def bench_driver_overhead(*, channels: int = 20, scans: int = 1000, rounds: int 
 
 
 if __name__ == "__main__":
-    print(json.dumps({"20 channels": bench_driver_overhead(), "1 channel": bench_driver_overhead(channels=1, scans=4000)}, indent=2))
+    figures = {"20 channels": bench_driver_overhead(), "1 channel": bench_driver_overhead(channels=1, scans=4000)}
+    print(json.dumps(figures, indent=2))

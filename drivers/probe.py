@@ -147,7 +147,8 @@ def probe(
         return ProbeResult(resource, backend, None, problem=f"cannot open {resource}: {exc}")
     if not isinstance(inst, pyvisa.resources.MessageBasedResource):
         inst.close()
-        return ProbeResult(resource, backend, None, problem=f"{resource} is not a message-based resource; SCPI needs one")
+        problem = f"{resource} is not a message-based resource; SCPI needs one"
+        return ProbeResult(resource, backend, None, problem=problem)
 
     identity: str | None = None
     readings: list[RawReading] = []

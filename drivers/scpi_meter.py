@@ -122,7 +122,7 @@ def parse_reply(
 
 
 def parse_error_entry(text: str) -> tuple[int, str] | None:
-    """``(code, message)`` from one ``SYSTem:ERRor?`` answer such as ``-113,"Undefined header"``; None if it is not one."""
+    """``(code, message)`` from one ``SYSTem:ERRor?`` answer (``-113,"Undefined header"``); None if it is not one."""
     m = _ERROR_ENTRY.fullmatch(text)
     if m is None:
         return None
@@ -298,6 +298,7 @@ class Clock(Protocol):
 
 
 _T = TypeVar("_T")
+_E = TypeVar("_E", bound=InstrumentError)
 Wiring = Literal[2, 4]
 
 
@@ -342,7 +343,9 @@ class ScpiMeter:
         if not channels or len(set(channels)) != len(channels):
             raise InputError(f"{name}: channels must be a non-empty list of distinct names, got {list(channels)}")
         if len(channels) > profile.max_channels:
-            raise InputError(f"{name}: profile {profile.name!r} reads {profile.max_channels} channel(s), not {len(channels)}")
+            raise InputError(
+                f"{name}: profile {profile.name!r} reads {profile.max_channels} channel(s), not {len(channels)}"
+            )
         if wiring not in (2, 4):
             raise InputError(f"{name}: a meter measures 2- or 4-wire, got wiring={wiring!r}")
         if range_ohm is not None and not range_ohm > 0:
@@ -449,7 +452,7 @@ class ScpiMeter:
             if self._inst is not None:
                 state = _stream_state(self._inst)
                 if state == "closed":
-                    exc = ConnectionLost(self._where("the connection was closed by the instrument"), resource=self.resource)
+                    exc = self._error(ConnectionLost, "the connection was closed by the instrument")
                     return self._failed_scan(exc, "lost", backoff=True)
                 if state == "stale":
                     # bytes nobody asked for: the stream is out of step; start afresh now
@@ -490,12 +493,12 @@ class ScpiMeter:
                 open_timeout=_visa_ms(self.timeout_s),
             )
         except pyvisa.errors.VisaIOError as exc:
-            raise ConnectionLost(self._where(f"cannot open the resource: {exc.description}"), resource=self.resource) from exc
+            raise self._error(ConnectionLost, f"cannot open the resource: {exc.description}") from exc
         except Exception as exc:  # pyvisa-py raises a bare Exception when the TCP connect times out
-            raise ConnectionLost(self._where(f"cannot open the resource: {exc}"), resource=self.resource) from exc
+            raise self._error(ConnectionLost, f"cannot open the resource: {exc}") from exc
         if not isinstance(inst, pyvisa.resources.MessageBasedResource):
             inst.close()
-            raise InstrumentError(self._where("is not a message-based resource; SCPI needs one"), resource=self.resource)
+            raise self._error(InstrumentError, "is not a message-based resource; SCPI needs one")
         self._inst = inst
         try:
             self._identify()
@@ -514,20 +517,14 @@ class ScpiMeter:
     def _identify(self) -> None:
         identity = self._query(self.profile.identify).strip()
         if not identity or not identity.isprintable():
-            raise ReplyGarbled(
-                self._where(f"answered {self.profile.identify!r} with {_shown(identity)}, not an identity"),
-                resource=self.resource,
-                command=self.profile.identify,
-            )
+            what = f"answered {self.profile.identify!r} with {_shown(identity)}, not an identity"
+            raise self._error(ReplyGarbled, what, self.profile.identify)
         if self._expected_identity is not None and identity != self._expected_identity:
-            raise InstrumentError(
-                self._where(
-                    f"now answers as {identity!r}, not {self._expected_identity!r}; "
-                    "another instrument at this address? check it and restart"
-                ),
-                resource=self.resource,
-                command=self.profile.identify,
+            what = (
+                f"now answers as {identity!r}, not {self._expected_identity!r}; "
+                "another instrument at this address? check it and restart"
             )
+            raise self._error(InstrumentError, what, self.profile.identify)
         self._expected_identity = identity
         self._health.identity = identity
 
@@ -574,12 +571,13 @@ class ScpiMeter:
             reply = self._query(command)
             entry = parse_error_entry(reply)
             if entry is None:
-                raise ReplyGarbled(self._where(f"answered {command!r} with {_shown(reply)}"), resource=self.resource, command=command)
+                raise self._error(ReplyGarbled, f"answered {command!r} with {_shown(reply)}", command)
             if entry[0] == 0:
                 return entries
             entries.append(entry)
             self._health.counters["instrument_errors"] += 1
-        raise ReplyGarbled(self._where(f"error queue did not empty after {_MAX_ERROR_ENTRIES} reads of {command!r}"), resource=self.resource, command=command)
+        what = f"error queue did not empty after {_MAX_ERROR_ENTRIES} reads of {command!r}"
+        raise self._error(ReplyGarbled, what, command)
 
     # --- reading ---------------------------------------------------------------------
 
@@ -595,7 +593,8 @@ class ScpiMeter:
             try:
                 esr = int(tail.strip())
             except ValueError:
-                raise ReplyGarbled(self._where(f"answered {self._read_message!r} with {_shown(reply)}"), resource=self.resource, command=self._read_message) from None
+                message = self._read_message
+                raise self._error(ReplyGarbled, f"answered {message!r} with {_shown(reply)}", message) from None
             if esr & _ESR_PON:
                 self._health.counters["power_ons"] += 1
                 self._note(f"{self.name} reports a power-on (*ESR? bit 7): settings lost; configuring again")
@@ -608,7 +607,7 @@ class ScpiMeter:
                 return failed_scan(self.channels, t_utc_s, "error", self._health.last_error)
         readings = parse_reply(body, self.channels, t_utc_s, current_a=self.current_a, wiring=self.wiring)
         if readings[0].status == "garbage":  # parse_reply fails a scan as a whole
-            raise ReplyGarbled(self._where(f"sent a scan that does not parse: {readings[0].reason}"), resource=self.resource, command=self.profile.read)
+            raise self._error(ReplyGarbled, f"sent a scan that does not parse: {readings[0].reason}", self.profile.read)
         self._health.last_ok_utc_s = t_utc_s
         return readings
 
@@ -624,7 +623,7 @@ class ScpiMeter:
 
     def _require(self) -> pyvisa.resources.MessageBasedResource:
         if self._inst is None:
-            raise ConnectionLost(self._where("is not open"), resource=self.resource)
+            raise self._error(ConnectionLost, "is not open")
         return self._inst
 
     def _io(self, command: str, op: Callable[[], _T]) -> _T:
@@ -644,34 +643,32 @@ class ScpiMeter:
                 )
                 err.timeout_s = self.timeout_s  # type: ignore[attr-defined]
                 raise err from exc
-            raise ConnectionLost(self._where(f"failed on {command!r}: {exc.description}"), resource=self.resource, command=command) from exc
+            raise self._error(ConnectionLost, f"failed on {command!r}: {exc.description}", command) from exc
         except ConnectionRefusedError as exc:
-            raise ConnectionLost(
-                self._where("refused the connection: nothing listens there; is the instrument on and the port right?"),
-                resource=self.resource,
-                command=command,
-            ) from exc
+            what = "refused the connection: nothing listens there; is the instrument on and the port right?"
+            raise self._error(ConnectionLost, what, command) from exc
         except OSError as exc:
-            raise ConnectionLost(self._where(f"lost the connection on {command!r}: {exc}"), resource=self.resource, command=command) from exc
+            raise self._error(ConnectionLost, f"lost the connection on {command!r}: {exc}", command) from exc
         except UnicodeDecodeError as exc:
-            raise ReplyGarbled(
-                self._where(f"answered {command!r} with bytes that are not ASCII ({exc.reason} at byte {exc.start})"),
-                resource=self.resource,
-                command=command,
-            ) from exc
+            what = f"answered {command!r} with bytes that are not ASCII ({exc.reason} at byte {exc.start})"
+            raise self._error(ReplyGarbled, what, command) from exc
 
     def _resource_manager(self) -> pyvisa.ResourceManager:
         if self._rm is None:
             try:
                 self._rm = pyvisa.ResourceManager(self.backend)
             except (OSError, ValueError, ImportError, pyvisa.errors.Error) as exc:
-                raise InstrumentError(f"{self.name}: cannot load the VISA backend {self.backend!r}: {exc}", resource=self.resource) from exc
+                raise self._error(InstrumentError, f"cannot load the VISA backend {self.backend!r}: {exc}") from exc
         return self._rm
 
     # --- bookkeeping -----------------------------------------------------------------
 
     def _where(self, what: str) -> str:
         return f"{self.name} ({self.resource}) {what}"
+
+    def _error(self, kind: type[_E], what: str, command: str | None = None) -> _E:
+        """An exception of ``kind`` that names this instrument and keeps the facts as attributes."""
+        return kind(self._where(what), resource=self.resource, command=command)
 
     def _note(self, message: str) -> None:
         self._health.last_error = message

@@ -75,7 +75,9 @@ def test_health_has_every_key(start_sim: StartSim, make_meter: MakeMeter) -> Non
 
 
 @pytest.mark.parametrize(("wiring", "lead_ohm"), [(4, 0.0), (2, LEAD_OHM)])
-def test_readings_equal_the_plant_values(start_sim: StartSim, make_meter: MakeMeter, wiring: int, lead_ohm: float) -> None:
+def test_readings_equal_the_plant_values(
+    start_sim: StartSim, make_meter: MakeMeter, wiring: int, lead_ohm: float
+) -> None:
     # 4-wire: the sense leads carry no current, the leads drop out; 2-wire: both
     # leads are in series with the sensor (Ohm's law; IEC 60751:2008, 5.3, from memory)
     sim = start_sim()
@@ -187,7 +189,9 @@ def test_a_dead_port_makes_open_raise_a_clear_error(dead_resource: str, make_met
     assert meter.health()["connected"] is False
 
 
-def test_read_scan_on_a_dead_instrument_returns_lost(dead_resource: str, make_meter: MakeMeter, clock: ManualClock) -> None:
+def test_read_scan_on_a_dead_instrument_returns_lost(
+    dead_resource: str, make_meter: MakeMeter, clock: ManualClock
+) -> None:
     meter = make_meter(dead_resource)
     for _ in range(3):
         readings = meter.read_scan()  # never raises
@@ -528,8 +532,8 @@ def test_waiting_to_reconnect_costs_almost_no_cpu_measurement(start_sim: StartSi
 def test_overhead_benchmark_reports_its_figures() -> None:
     result = bench_driver_overhead(channels=3, scans=40, rounds=4)
     assert result["channels"] == 3 and result["scans"] == 40
-    for key in ("bare_us_per_reading", "bare_floats_us_per_reading", "bare_same_message_us_per_reading", "driver_us_per_reading"):
-        assert result[key] > 0
+    for way in ("bare", "bare_floats", "bare_same_message", "driver"):
+        assert result[f"{way}_us_per_reading"] > 0
     assert result["driver_added_us_per_reading"] == pytest.approx(
         result["driver_us_per_reading"] - result["bare_us_per_reading"]
     )

@@ -94,8 +94,8 @@ def test_special_values_become_statuses_without_a_value(field: str, status: str)
         ("100.0,inf,102.0", "'inf'"),
         ("100.0,1_000,102.0", "'1_000'"),
         ("100.0,0x10,102.0", "'0x10'"),
-        ("100.0,12 OHM,102.0", "'12 OHM'"),
-        ("100.0,١٢,102.0", "not a number"),  # IEEE 488.2 data is 7-bit ASCII; float() reads these digits  # a suffix is program data, not response data
+        ("100.0,12 OHM,102.0", "'12 OHM'"),  # a suffix is program data, not response data
+        ("100.0,١٢,102.0", "not a number"),  # IEEE 488.2 data is 7-bit ASCII; float() reads these digits
         ('-113,"Undefined header"', "Undefined header"),  # an error entry where a scan was due
         ("Larchmere Instruments,LM-2470,SIM-0001", "Larchmere"),  # a late *IDN? answer
     ],
