@@ -310,6 +310,10 @@ def _closest(word: str, options: set[str]) -> str | None:
     return m[0] if m else None
 
 
+def _plain_date(v: _dt.date) -> str | None:
+    return f"must be a date like 2027-01-31, without a time; got {v!r}" if isinstance(v, _dt.datetime) else None
+
+
 def _positive(v: float) -> str | None:
     return None if v > 0 else f"must be positive, got {v!r}"
 
@@ -385,7 +389,8 @@ def parse_config(text: str, path: str = "<config>", *, today: _dt.date | None = 
     sensors = _sensors(ck, data.get("sensor", []), today or _dt.date.today())
     inst_by_name = {i.name: i for i in instruments}
     sens_by_name = {s.name: s for s in sensors}
-    channels = _channels(ck, data.get("channel", []), inst_by_name, sens_by_name)
+    channels = _channels(ck, data.get("channel", []), inst_by_name, sens_by_name,
+                         _declared(data.get("instrument")), _declared(data.get("sensor")))
     alarms = _alarms(ck, data.get("alarm", []), {c.name for c in channels})
     profile = ck.table(data.get("profile", {}), "profile")
 
@@ -460,7 +465,7 @@ def _instruments(ck: _Checker, raw: Any, ) -> list[InstrumentConfig]:
                     except ValueError:
                         ck.bad(f"{key}.test_current_a.{rk}", "keys are ranges in ohm, like \"1000\"")
                         continue
-                    if not isinstance(rv, (int, float)) or isinstance(rv, bool) or not rv > 0:
+                    if not isinstance(rv, (int, float)) or isinstance(rv, bool) or not (math.isfinite(rv) and rv > 0):
                         ck.bad(f"{key}.test_current_a.{rk}", f"must be a positive current in A, got {rv!r}")
                         continue
                     currents[r] = float(rv)
@@ -491,8 +496,10 @@ def _instruments(ck: _Checker, raw: Any, ) -> list[InstrumentConfig]:
             kw["excitation_a"] = (ma or 0.25) / 1000.0
         if name is None or driver is None or interval is None or timeout is None:
             continue
-        out.append(InstrumentConfig(name=name, driver=driver, interval_s=interval, timeout_s=timeout,
-                                    **{k: v for k, v in kw.items() if v is not None}))
+        keep = {k: v for k, v in kw.items() if v is not None}
+        if driver == "scpi" and "range_ohm" in kw:
+            keep["range_ohm"] = kw["range_ohm"]  # None is autorange, not "not given"
+        out.append(InstrumentConfig(name=name, driver=driver, interval_s=interval, timeout_s=timeout, **keep))
     return out
 
 
@@ -542,7 +549,9 @@ def _sensors(ck: _Checker, raw: Any, today: _dt.date) -> list[SensorConfig]:
         if "class" in d:
             cls = ck.get(d, key, "class", str)
             element = ck.get(d, key, "element", str)
-            if cls:
+            if element is not None and element.strip().lower() not in ("film", "wire"):
+                ck.bad(f"{key}.element", f"must be 'film' or 'wire', got {element!r}")
+            elif cls:
                 try:
                     tol = tolerance_class(cls, element)
                 except InputError as exc:
@@ -564,8 +573,8 @@ def _sensors(ck: _Checker, raw: Any, today: _dt.date) -> list[SensorConfig]:
                     or not span[0] < span[1]):
                 ck.bad(f"{ckey}.span_c", f"must be [low, high] in °C with low < high, got {span!r}")
                 span = [-200.0, 850.0]
-            date = ck.get(c, ckey, "date", _dt.date)
-            due = ck.get(c, ckey, "due", _dt.date)
+            date = ck.get(c, ckey, "date", _dt.date, check=_plain_date)
+            due = ck.get(c, ckey, "due", _dt.date, check=_plain_date)
             if due is not None and due < today:
                 ck.warnings.append(f"{ckey}.due: calibration of {name} was due {due.isoformat()}; its uncertainty may no longer hold")
             if "coefficients" in c:
@@ -587,8 +596,20 @@ def _sensors(ck: _Checker, raw: Any, today: _dt.date) -> list[SensorConfig]:
     return out
 
 
+def _declared(raw: Any) -> set[str]:
+    """Names of the items of an array of tables, valid or not (a broken item is not an unknown one)."""
+    if not isinstance(raw, list):
+        return set()
+    return {d["name"] for d in raw if isinstance(d, dict) and isinstance(d.get("name"), str)}
+
+
 def _channels(
-    ck: _Checker, raw: Any, instruments: Mapping[str, InstrumentConfig], sensors: Mapping[str, SensorConfig]
+    ck: _Checker,
+    raw: Any,
+    instruments: Mapping[str, InstrumentConfig],
+    sensors: Mapping[str, SensorConfig],
+    declared_instruments: set[str] = frozenset(),  # type: ignore[assignment]
+    declared_sensors: set[str] = frozenset(),  # type: ignore[assignment]
 ) -> list[ChannelConfig]:
     out: list[ChannelConfig] = []
     seen: set[str] = set()
@@ -600,7 +621,7 @@ def _channels(
         name = ck.get(d, key, "name", str, required=True)
         _unique_name(ck, seen, name, key)
         inst = ck.get(d, key, "instrument", str, required=True)
-        if inst is not None and inst not in instruments:
+        if inst is not None and inst not in instruments and inst not in declared_instruments:
             ck.bad(f"{key}.instrument", f"no instrument named {inst!r}; known: {', '.join(instruments) or 'none'}")
         inp = d.get("input")
         if isinstance(inp, int) and not isinstance(inp, bool):
@@ -613,7 +634,7 @@ def _channels(
         if inst is not None and inp is not None:
             inputs.add((inst, inp))
         sensor = ck.get(d, key, "sensor", str, required=True)
-        if sensor is not None and sensor not in sensors:
+        if sensor is not None and sensor not in sensors and sensor not in declared_sensors:
             ck.bad(f"{key}.sensor", f"no sensor named {sensor!r}; known: {', '.join(sensors) or 'none'}")
         icfg = instruments.get(inst or "")
         default_wiring = icfg.wiring if icfg is not None else 4
@@ -626,7 +647,8 @@ def _channels(
         ch_range = ck.get(d, key, "range_ohm", float, check=_positive)
         if ch_range is not None and icfg is not None and icfg.driver != "scpi":
             ck.bad(f"{key}.range_ohm", f"a range applies to a multimeter channel; {inst} is a {icfg.driver} board")
-        if name is None or inst is None or inp is None or sensor is None or leads is None:
+        if name is None or inst is None or inp is None or sensor is None or leads is None \
+                or inst not in instruments or sensor not in sensors:
             continue
         out.append(ChannelConfig(
             name=name, label=ck.get(d, key, "label", str, default=name) or name, instrument=inst, input=inp,
@@ -658,6 +680,9 @@ def _leads(ck: _Checker, d: Mapping[str, Any], key: str, wiring: int | None) -> 
         if name in t:
             kw[name] = ck.get(t, lk, name, float, check=lambda v: None if 0 <= v <= 1 else f"a fraction 0…1, got {v!r}")
     try:
+        if "ohms" in t and any(k in t for k in ("awg", "mm2", "inside_m", "outside_m")):
+            ck.bad(lk, "give the lead as ohms (one conductor) or as a copper gauge with lengths, not both")
+            return None
         if "ohms" in t:
             ohm = ck.get(t, lk, "ohms", float, check=_non_negative)
             if ohm is None:

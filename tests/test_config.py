@@ -455,13 +455,8 @@ def test_missing_file_is_a_problem():
         load_config("/nonexistent/station.toml")
 
 
-# ---------------------------------------------------------------- bugs found (xfail, strict: they flip when fixed)
+# ---------------------------------------------------------------- bugs found by these tests, since fixed
 
-@pytest.mark.xfail(
-    strict=True, raises=TypeError,
-    reason="config.py compares a TOML datetime (a datetime.date subclass, so ck.get accepts it) with a date: "
-    "calibration.due = 2020-01-01T00:00:00 raises TypeError instead of a problem or a warning",
-)
 def test_calibration_due_as_a_datetime_is_a_problem_not_a_crash():
     text = VALID.replace(
         'class = "B"\n', 'class = "B"\n' + cal(", due = 2020-01-01T00:00:00")
@@ -474,11 +469,6 @@ def test_calibration_due_as_a_datetime_is_a_problem_not_a_crash():
         assert any("was due 2020-01-01" in w for w in cfg.warnings)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="config.py drops an instrument or sensor that has a problem from the lookup, so every channel using it "
-    "also gets a false 'no instrument/sensor named X; known: none' problem",
-)
 @pytest.mark.parametrize(
     ("text", "key"),
     [
@@ -490,30 +480,16 @@ def test_a_broken_item_does_not_make_its_users_unknown(text, key):
     assert [k for k, _ in problems_of(text)] == [key]
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="config.py builds Conductor.fixed(ohms) when 'ohms' is present and silently drops awg/inside_m/outside_m; "
-    "Conductor itself rejects a resistance together with lengths",
-)
 def test_lead_given_as_ohms_and_as_gauge_with_lengths_is_a_problem():
     problems = problems_of(VALID + "wiring = 2\nlead = { ohms = 0.2, awg = 24, inside_m = 2.0 }\n")
     assert problems[0][0].startswith("channel[1].lead")
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="config.py reports a bad element (tolerance_class raising on it) under sensor[N].class, not sensor[N].element",
-)
 def test_bad_element_is_reported_at_its_own_key():
     (problem,) = problems_of(VALID.replace('class = "B"', 'class = "B"\nelement = "glass"'))
     assert problem[0] == "sensor[1].element"
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="config.py accepts test_current_a values that are not finite (inf passes 'rv > 0'); validation passes "
-    "and StationConfig.chain() then raises InputError from Excitation, after the logger has started",
-)
 def test_infinite_test_current_is_a_problem():
     problems = problems_of(station(meter='test_current_a = { "1000" = inf }\n'))
     assert problems[0][0] == "instrument[1].test_current_a.1000"
@@ -571,7 +547,7 @@ _SCALARS = st.one_of(
     st.booleans(),
     st.text(st.characters(blacklist_categories=("Cs", "Cc")), max_size=10),
     st.sampled_from(["", "2s", "0s", "auto", "scpi", "serial-adc", "meter", "pt100", "A", "F0.3", "film", "iec60751", "101"]),
-    st.dates(),  # TOML local dates; datetimes are left out: see the xfail test above
+    st.dates(),  # TOML local dates (a datetime is refused: see the test above)
     st.times(),
 )
 _VALUES = st.one_of(
@@ -740,12 +716,6 @@ def test_autorange_warns():
     assert w.startswith("instrument[1]: autorange changes the test current")
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="config.py sets range_ohm None for \"auto\" but then drops every None from the keyword arguments of "
-    "InstrumentConfig, so the default 1000.0 comes back: autorange silently becomes the fixed 1 kΩ range "
-    "(the driver is built from cfg.range_ohm), while the warning speaks of autorange",
-)
 def test_autorange_leaves_the_range_and_the_current_open():
     cfg = parse_config(station(meter='range_ohm = "auto"\n'), "/lab/station.toml", today=TODAY)
     assert cfg.instruments[0].range_ohm is None
