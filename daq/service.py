@@ -46,15 +46,22 @@ MAX_BUFFERED_READINGS = 1_000_000
 #: a scan that starts this much later than its slot is recorded (fraction of the interval)
 LATE_FRACTION = 0.5
 
-DriverFactory = Callable[[InstrumentConfig, ServiceClock, Sequence[str]], Driver]
+DriverFactory = Callable[..., Driver]
 
 
-def default_driver_factory(cfg: InstrumentConfig, clock: ServiceClock, inputs: Sequence[str]) -> Driver:
-    """Build the driver an instrument's configuration names."""
+def default_driver_factory(cfg: InstrumentConfig, clock: ServiceClock, inputs: Sequence[str],
+                           station: StationConfig | None = None) -> Driver:
+    """Build the driver an instrument's configuration names (``station`` gives per-channel settings)."""
     if cfg.driver == "scpi":
         from drivers.scpi_meter import ScpiMeter
 
-        return ScpiMeter.from_config(cfg, clock, channels=inputs)
+        settings = None
+        if station is not None:
+            settings = {
+                c.input: (c.leads.wiring, c.range_ohm if c.range_ohm is not None else cfg.range_ohm)
+                for c in station.channels if c.instrument == cfg.name
+            }
+        return ScpiMeter.from_config(cfg, clock, channels=inputs, channel_settings=settings)
     if cfg.driver == "serial-adc":
         from drivers.serial_adc import SerialAdc
 
@@ -153,7 +160,7 @@ class Service:
             inputs = [c.input for c in cfg.channels if c.instrument == inst.name]
             if not inputs:
                 continue
-            driver = self._factory(inst, self.clock, inputs)
+            driver = self._factory(inst, self.clock, inputs, cfg)
             self._drivers[inst.name] = driver
             t = threading.Thread(target=self._acquire, args=(inst, driver), name=f"acq-{inst.name}", daemon=True)
             self._threads.append(t)

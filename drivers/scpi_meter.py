@@ -30,7 +30,9 @@ from pyvisa.constants import StatusCode
 
 from daq.clock import SystemClock
 from daq.errors import ConfigError, ConnectionLost, InputError, InstrumentError, InstrumentTimeout
-from drivers.base import Health, RawReading, failed_scan
+import numpy as np
+
+from drivers.base import STATUS_INDEX, Health, RawReading, RawScan, failed_scan
 
 if TYPE_CHECKING:
     from daq.config import InstrumentConfig
@@ -47,6 +49,7 @@ __all__ = [
     "format_channel_list",
     "parse_error_entry",
     "parse_reply",
+    "parse_scan",
     "profile_named",
 ]
 
@@ -119,6 +122,37 @@ def parse_reply(
             status, reason = "out_of_range", f"negative resistance {field_text.strip()} ohm; check the wiring"
         out.append(RawReading(channel, t_utc_s, math.nan, "ohm", status, reason, current_a, wiring))
     return out
+
+
+def parse_scan(
+    text: str,
+    channels: Sequence[str],
+    t_utc_s: float,
+    *,
+    current_a: Sequence[float | None] | float | None = None,
+    wiring: Sequence[int | None] | int | None = None,
+) -> RawScan:
+    """``parse_reply`` in columnar form: the same statuses, as one ``RawScan``.
+
+    A reply of plain numbers all inside 0 … 9.9E37 (the every-day case) is
+    converted in one pass; anything else goes through ``parse_reply`` for its
+    per-value statuses and reasons.
+    """
+    chans = tuple(channels)
+    if isinstance(text, str) and _NUMBERS.fullmatch(text):
+        values = np.array(text.split(","), dtype=np.float64)
+        if values.shape[0] == len(chans) and bool(np.all((values >= 0.0) & (values < OVERLOAD))):
+            return RawScan(chans, t_utc_s, values, np.zeros(len(chans), dtype=np.int8),
+                           current_a=current_a, wiring=wiring)
+    single_current = current_a if not isinstance(current_a, (list, tuple)) else None
+    single_wiring = wiring if not isinstance(wiring, (list, tuple)) else None
+    readings = parse_reply(text, chans, t_utc_s, current_a=single_current, wiring=single_wiring)
+    return RawScan(
+        chans, t_utc_s,
+        np.array([r.value for r in readings], dtype=np.float64),
+        np.array([STATUS_INDEX[r.status] for r in readings], dtype=np.int8),
+        [r.reason for r in readings], current_a=current_a, wiring=wiring,
+    )
 
 
 def parse_error_entry(text: str) -> tuple[int, str] | None:
@@ -338,6 +372,7 @@ class ScpiMeter:
         clock: Clock | None = None,
         backoff: Backoff = Backoff(),
         test_current_a: Mapping[float, float] | None = None,
+        channel_settings: Mapping[str, tuple[Wiring, float | None]] | None = None,
     ) -> None:
         channels = tuple(str(c) for c in channels)
         if not channels or len(set(channels)) != len(channels):
@@ -371,6 +406,25 @@ class ScpiMeter:
         self.timeout_s = float(timeout_s)
         self.backend = backend
         self.current_a = profile.current_for_range(range_ohm)
+        # per channel: (wiring, range); channels not named use the meter's own
+        settings = dict(channel_settings or {})
+        for ch, (w, r) in settings.items():
+            if ch not in channels:
+                raise InputError(f"{name}: settings for channel {ch!r}, which is not in the scan")
+            if w not in (2, 4):
+                raise InputError(f"{name}: channel {ch} wiring must be 2 or 4, got {w!r}")
+            if r is not None and not r > 0:
+                raise InputError(f"{name}: channel {ch} range must be positive or None, got {r!r}")
+        self._settings: dict[str, tuple[Wiring, float | None]] = {
+            ch: settings.get(ch, (wiring, range_ohm)) for ch in channels
+        }
+        self._currents: tuple[float | None, ...] = tuple(profile.current_for_range(self._settings[ch][1]) for ch in channels)
+        self._wirings: tuple[int, ...] = tuple(self._settings[ch][0] for ch in channels)
+        if len(set(self._settings.values())) == 1:
+            self._scan_current: tuple[float | None, ...] | float | None = self._currents[0]
+            self._scan_wiring: tuple[int, ...] | int = self._wirings[0]
+        else:
+            self._scan_current, self._scan_wiring = self._currents, self._wirings
         self._clock: Clock = clock if clock is not None else SystemClock()
         self._backoff = backoff
         self._rm: pyvisa.ResourceManager | None = None
@@ -387,7 +441,12 @@ class ScpiMeter:
 
     @classmethod
     def from_config(
-        cls, cfg: InstrumentConfig, clock: Clock | None = None, *, channels: Sequence[str]
+        cls,
+        cfg: InstrumentConfig,
+        clock: Clock | None = None,
+        *,
+        channels: Sequence[str],
+        channel_settings: Mapping[str, tuple[Wiring, float | None]] | None = None,
     ) -> ScpiMeter:
         """The driver for one ``[[instrument]]`` of a station (``driver = "scpi"``) and its channels' inputs.
 
@@ -415,6 +474,7 @@ class ScpiMeter:
                 backend=cfg.backend,
                 clock=clock,
                 test_current_a=cfg.test_current_a,
+                channel_settings=channel_settings,
             )
         except InputError as exc:
             raise ConfigError(str(exc), key=key) from None
@@ -446,7 +506,7 @@ class ScpiMeter:
         # plain fields is safe to take while they change
         return self._health.snapshot()
 
-    def read_scan(self) -> list[RawReading]:
+    def read_scan(self) -> Sequence[RawReading]:
         """One reading per channel; trouble becomes statuses, and reconnecting waits for the back-off."""
         with self._lock:
             if self._inst is not None:
@@ -530,23 +590,26 @@ class ScpiMeter:
 
     def _configure(self) -> None:
         p = self.profile
-        values = {
-            "range": p.autorange if self.range_ohm is None else f"{self.range_ohm:.10g}",
-            "channels": format_channel_list(self.channels),
-            "nplc": f"{self.nplc:.10g}",
-            "state": p.on if self.offset_compensation else p.off,
-        }
-        four = self.wiring == 4
-        templates = [
-            p.reset,
-            p.clear,
-            p.configure_4w if four else p.configure_2w,
-            p.nplc_4w if four else p.nplc_2w,
-            p.offset_compensation_4w if four else p.offset_compensation_2w,
-        ]
-        if len(self.channels) > 1:
-            templates.append(p.scan)
-        sent = [p.render(t, **values) for t in templates if t]
+        groups: dict[tuple[Wiring, float | None], list[str]] = {}
+        for ch in self.channels:
+            groups.setdefault(self._settings[ch], []).append(ch)
+        sent = [c for c in (p.reset, p.clear) if c]
+        for (wiring, range_ohm), chans in groups.items():
+            values = {
+                "range": p.autorange if range_ohm is None else f"{range_ohm:.10g}",
+                "channels": format_channel_list(chans),
+                "nplc": f"{self.nplc:.10g}",
+                "state": p.on if self.offset_compensation else p.off,
+            }
+            four = wiring == 4
+            templates = [
+                p.configure_4w if four else p.configure_2w,
+                p.nplc_4w if four else p.nplc_2w,
+                p.offset_compensation_4w if four else p.offset_compensation_2w,
+            ]
+            sent += [p.render(t, **values) for t in templates if t]
+        if len(self.channels) > 1 and p.scan:
+            sent.append(p.render(p.scan, channels=format_channel_list(self.channels)))
         for command in sent:
             self._write(command)
         errors = self._drain_errors()
@@ -581,7 +644,7 @@ class ScpiMeter:
 
     # --- reading ---------------------------------------------------------------------
 
-    def _scan(self) -> list[RawReading]:
+    def _scan(self) -> Sequence[RawReading]:
         started_s = self._clock.utc_s()
         reply = self._query(self._read_message)
         t_utc_s = 0.5 * (started_s + self._clock.utc_s())  # the middle of the scan
@@ -605,11 +668,11 @@ class ScpiMeter:
                 listed = "; ".join(f"{c},{m!r}" for c, m in entries) or f"*ESR? = {esr}"
                 self._note(f"{self.name} logged an error during the scan: {listed}")
                 return failed_scan(self.channels, t_utc_s, "error", self._health.last_error)
-        readings = parse_reply(body, self.channels, t_utc_s, current_a=self.current_a, wiring=self.wiring)
-        if readings[0].status == "garbage":  # parse_reply fails a scan as a whole
-            raise self._error(ReplyGarbled, f"sent a scan that does not parse: {readings[0].reason}", self.profile.read)
+        scan = parse_scan(body, self.channels, t_utc_s, current_a=self._scan_current, wiring=self._scan_wiring)
+        if scan.status[0] == STATUS_INDEX["garbage"]:  # a scan fails to parse as a whole
+            raise self._error(ReplyGarbled, f"sent a scan that does not parse: {scan.reasons[0]}", self.profile.read)
         self._health.last_ok_utc_s = t_utc_s
-        return readings
+        return scan
 
     # --- I/O, translated once --------------------------------------------------------
 
