@@ -69,6 +69,8 @@ _SHOWN_CHARS = 40
 _NR = r"\s*[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?\s*"
 _NUMBER = re.compile(_NR, re.ASCII)
 _NUMBERS = re.compile(rf"{_NR}(?:,{_NR})*", re.ASCII)  # a whole scan in one pass
+#: str.translate table deleting every character a scan of plain numbers may hold
+_NUMBER_CHARS = str.maketrans("", "", "0123456789+-.eE, \t\n\r\f\v")
 _ERROR_ENTRY = re.compile(r'\s*([+-]?[0-9]+)\s*(?:,\s*"?(.*?)"?)?\s*', re.ASCII | re.DOTALL)
 _PLACEHOLDERS = frozenset({"range", "channels", "nplc", "state"})
 
@@ -139,11 +141,18 @@ def parse_scan(
     per-value statuses and reasons.
     """
     chans = tuple(channels)
-    if isinstance(text, str) and _NUMBERS.fullmatch(text):
-        values = np.array(text.split(","), dtype=np.float64)
-        if values.shape[0] == len(chans) and bool(np.all((values >= 0.0) & (values < OVERLOAD))):
-            return RawScan(chans, t_utc_s, values, np.zeros(len(chans), dtype=np.int8),
-                           current_a=current_a, wiring=wiring)
+    # only the characters of plain numbers: then float() accepts exactly the
+    # IEEE 488.2 NR1/NR2/NR3 forms (no nan, inf, 0x…, 1_0, non-ASCII digits)
+    if isinstance(text, str) and not text.translate(_NUMBER_CHARS):
+        fields = text.split(",")
+        if len(fields) == len(chans):
+            try:
+                values = np.array([float(f) for f in fields], dtype=np.float64)
+            except ValueError:
+                values = None
+            if values is not None and bool(((values >= 0.0) & (values < OVERLOAD)).all()):
+                return RawScan(chans, t_utc_s, values, np.zeros(len(chans), dtype=np.int8),
+                               current_a=current_a, wiring=wiring, checked=True)
     single_current = current_a if not isinstance(current_a, (list, tuple)) else None
     single_wiring = wiring if not isinstance(wiring, (list, tuple)) else None
     readings = parse_reply(text, chans, t_utc_s, current_a=single_current, wiring=single_wiring)
