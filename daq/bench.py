@@ -232,12 +232,128 @@ def bench_trend(n_channels: int = 32, hours: float = 1000.0, seed: int = 11) -> 
     }
 
 
+class _SyntheticMeter:
+    """A driver that makes scans from a formula: the benchmark's stand-in for instruments.
+
+    It measures what the service itself costs (scheduling, conversion,
+    storage), without instrument or simulator time in the figure; the
+    drivers' own cost per reading is measured separately (``drivers.bench``).
+    """
+
+    def __init__(self, cfg: Any, clock: Any, inputs: Any, station: Any = None) -> None:
+        self.name = cfg.name
+        self._clock = clock
+        self._inputs = tuple(inputs)
+        self._r0 = np.full(len(self._inputs), 100.0)
+        self._k = 0
+
+    def open(self) -> None:
+        pass
+
+    def close(self) -> None:
+        pass
+
+    def read_scan(self) -> Any:
+        from drivers.base import RawScan
+
+        self._k += 1
+        t = self._clock.utc_s()
+        temp = 72.5 + 52.5 * np.sin(2 * np.pi * t / 7200.0) + 0.01 * np.sin(np.arange(len(self._inputs)) + self._k)
+        values = resistance(temp, IEC_60751)
+        return RawScan(self._inputs, t, values, np.zeros(len(self._inputs), dtype=np.int8),
+                       current_a=1e-3, wiring=4, checked=True)
+
+    def health(self) -> dict[str, object]:
+        return {"connected": True, "identity": "synthetic", "reads": self._k}
+
+
+def _rss_mb() -> float:
+    with open("/proc/self/status", encoding="ascii") as fh:
+        for line in fh:
+            if line.startswith("VmRSS:"):
+                return int(line.split()[1]) / 1024.0
+    return float("nan")
+
+
+def bench_memory(hours: float = 24.0, n_channels: int = 32, wall_s: float = 60.0) -> dict[str, Any]:
+    """Resident memory growth of the service over ``hours`` of accelerated time, 32 channels at 1 Hz.
+
+    The first tenth of the run is the warm-up (caches, SQLite page cache,
+    numpy); growth is measured from there to the end.
+    """
+    import gc
+    import tempfile
+    from pathlib import Path
+
+    from daq.clock import AcceleratedClock
+    from daq.config import parse_config
+    from daq.service import Service
+    from simulators.clock import SimClock
+
+    speed = hours * 3600.0 / wall_s
+    with tempfile.TemporaryDirectory(prefix="soaklog-bench-") as tmp:
+        db = str(Path(tmp) / "memory.db")
+        cfg = parse_config(_station_text(n_channels, db), str(Path(tmp) / "bench.toml"))
+        sim = SimClock(speed)
+        svc = Service(cfg, clock=AcceleratedClock(sim, speed=speed, epoch_utc_s=1_800_000_000.0),
+                      driver_factory=_SyntheticMeter, new_run=True)
+        svc.start()
+        end_s = hours * 3600.0
+        warm_s = 0.1 * end_s
+        rss_warm = None
+        samples = []
+        while sim.now_s() < end_s:
+            time.sleep(0.5)
+            if rss_warm is None and sim.now_s() >= warm_s:
+                gc.collect()
+                rss_warm = _rss_mb()
+            samples.append(_rss_mb())
+        svc.stop()
+        gc.collect()
+        rss_end = _rss_mb()
+        stored = svc.stats.stored
+        late = svc.stats.late_scans
+    return {
+        "memory_hours": hours,
+        "memory_readings": stored,
+        "memory_warm_mb": rss_warm,
+        "memory_end_mb": rss_end,
+        "memory_peak_mb": max(samples) if samples else None,
+        "memory_growth_mb": None if rss_warm is None else rss_end - rss_warm,
+        "memory_late_scans": late,
+    }
+
+
+def bench_service_cpu(seconds: float = 20.0, n_channels: int = 32) -> dict[str, Any]:
+    """CPU share of one core the service uses logging 32 channels at 1 Hz in real time."""
+    import tempfile
+    from pathlib import Path
+
+    from daq.clock import SystemClock
+    from daq.config import parse_config
+    from daq.service import Service
+
+    with tempfile.TemporaryDirectory(prefix="soaklog-bench-") as tmp:
+        db = str(Path(tmp) / "cpu.db")
+        cfg = parse_config(_station_text(n_channels, db), str(Path(tmp) / "bench.toml"))
+        svc = Service(cfg, clock=SystemClock(), driver_factory=_SyntheticMeter, new_run=True)
+        svc.start()
+        time.sleep(2.0)  # start-up is not the steady state
+        c0, w0 = time.process_time(), time.perf_counter()
+        time.sleep(seconds)
+        c1, w1 = time.process_time(), time.perf_counter()
+        svc.stop()
+    return {"service_cpu_pct_of_core": 100.0 * (c1 - c0) / (w1 - w0), "service_cpu_seconds": w1 - w0}
+
+
 def run_bench(*, quick: bool = False) -> dict[str, Any]:
     """Run every benchmark that exists so far; contract keys not yet measurable are None."""
     result: dict[str, Any] = {key: None for key in CONTRACT_KEYS}
     result.update(bench_convert(n=10_000_000, repeats=2 if quick else 5))
     result.update(bench_ingest(n_scans=2_000 if quick else 12_500))
     result.update(bench_trend(hours=50.0 if quick else 1000.0))
+    result.update(bench_memory(hours=2.0 if quick else 24.0, wall_s=8.0 if quick else 60.0))
+    result.update(bench_service_cpu(seconds=3.0 if quick else 20.0))
     result["quick"] = quick
     result["not_measured"] = [k for k in CONTRACT_KEYS if result[k] is None]
     return result
