@@ -223,6 +223,7 @@ def bench_trend(n_channels: int = 32, hours: float = 1000.0, seed: int = 11) -> 
             points = len(tr["t_ms"])
         reader.close()
     return {
+        "trend_hours": hours,
         "trend_query_ms": best_trend * 1e3,
         "trend_points": points,
         "trend_raw_10min_ms": best_raw * 1e3,
@@ -346,6 +347,25 @@ def bench_service_cpu(seconds: float = 20.0, n_channels: int = 32) -> dict[str, 
     return {"service_cpu_pct_of_core": 100.0 * (c1 - c0) / (w1 - w0), "service_cpu_seconds": w1 - w0}
 
 
+def bench_instruments(*, quick: bool = False) -> dict[str, Any]:
+    """The simulators' and drivers' own figures, each against its baseline of the same run."""
+    from drivers.bench import bench_driver_overhead
+    from simulators.bench import bench_chamber
+    from simulators.dmm_bench import bench_dmm
+
+    chamber = bench_chamber(hours=100.0 if quick else 1000.0)
+    dmm = bench_dmm(n=1000 if quick else 5000)
+    out: dict[str, Any] = {
+        "chamber_1000h_projected_s": chamber["projected_1000h_s"],
+        "dmm_queries_per_s": dmm["queries_per_s"],
+        "dmm_ratio_vs_raw_socket": dmm["ratio_vs_raw_socket"],
+    }
+    for n in (20, 1):
+        d = bench_driver_overhead(channels=n, scans=200 if quick else 1000, rounds=5 if quick else 20)
+        out[f"driver_overhead_{n}ch"] = d["overhead_vs_bare"]
+    return out
+
+
 def run_bench(*, quick: bool = False) -> dict[str, Any]:
     """Run every benchmark that exists so far; contract keys not yet measurable are None."""
     result: dict[str, Any] = {key: None for key in CONTRACT_KEYS}
@@ -354,6 +374,7 @@ def run_bench(*, quick: bool = False) -> dict[str, Any]:
     result.update(bench_trend(hours=50.0 if quick else 1000.0))
     result.update(bench_memory(hours=2.0 if quick else 24.0, wall_s=8.0 if quick else 60.0))
     result.update(bench_service_cpu(seconds=3.0 if quick else 20.0))
+    result.update(bench_instruments(quick=quick))
     result["quick"] = quick
     result["not_measured"] = [k for k in CONTRACT_KEYS if result[k] is None]
     return result

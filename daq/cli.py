@@ -305,14 +305,37 @@ def _cmd_bench(args: argparse.Namespace) -> int:
     if args.json:
         print(json.dumps(result, indent=2))
         return 0
-    print("soaklog bench (this machine, this run)")
-    print(
-        f"  convert   {result['convert_values_per_s'] / 1e6:8.1f} M values/s over −200…850 °C "
-        f"(bare numpy quadratic, exact only ≥ 0 °C: {result['convert_numpy_values_per_s'] / 1e6:.1f} M/s) "
-        f"ratio {result['convert_ratio_vs_numpy']:.2f}"
-    )
-    if result["not_measured"]:
-        print(f"  not measured yet (their parts are not built): {', '.join(result['not_measured'])}")
+    r = result
+
+    def f(key: str, spec: str) -> str:
+        v = r.get(key)
+        return "—" if v is None else format(v, spec)
+
+    rows = [
+        ("conversion, 10 M values over -200…850 °C", f"{f('convert_values_per_s', ',.0f')} /s",
+         f"{f('convert_ratio_vs_numpy', '.2f')} × bare numpy quadratic (exact ≥ 0 °C only)", "≥ 0.5 ×"),
+        ("ingest: parse → pipeline → store", f"{f('ingest_readings_per_s', ',.0f')} readings/s",
+         f"{f('ingest_ratio_vs_executemany', '.2f')} × bare executemany, same rows and schema", "≥ 100 000/s, ≥ 0.5 ×"),
+        ("storage per reading (rollups, index)", f"{f('bytes_per_reading', '.1f')} bytes", "", "≤ 40"),
+        (f"2000-point trend of a {f('trend_hours', 'g')}-hour run", f"{f('trend_query_ms', '.1f')} ms",
+         f"10-minute raw window {f('trend_raw_10min_ms', '.1f')} ms", "≤ 50 ms"),
+        ("whole-run summary, 32 channels", f"{f('summary_32ch_ms', '.0f')} ms", "", ""),
+        (f"memory growth, {f('memory_hours', 'g')} h accelerated, 32 ch @ 1 Hz", f"{f('memory_growth_mb', '+.1f')} MB",
+         f"peak {f('memory_peak_mb', '.0f')} MB resident", "≤ 5 MB over 24 h"),
+        ("service CPU, 32 ch @ 1 Hz, real time", f"{f('service_cpu_pct_of_core', '.1f')} % of a core", "", "≤ 5 %"),
+        ("chamber model, 1000 h at 1 s steps", f"{f('chamber_1000h_projected_s', '.1f')} s", "", "< 60 s"),
+        ("simulated meter, *IDN? over loopback", f"{f('dmm_queries_per_s', ',.0f')} queries/s",
+         f"{f('dmm_ratio_vs_raw_socket', '.2f')} × a bare socket", "≥ 2000/s"),
+        ("driver overhead above bare READ?, 20 ch", f"{100 * (r.get('driver_overhead_20ch') or float('nan')):+.0f} %",
+         f"1 channel {100 * (r.get('driver_overhead_1ch') or float('nan')):+.0f} %", "< 20 %"),
+    ]
+    w0 = max(len(x[0]) for x in rows)
+    w1 = max(len(x[1]) for x in rows)
+    print("soaklog bench — this machine, this run" + (" (quick: smaller runs, noisier)" if r.get("quick") else ""))
+    for name, value, base, target in rows:
+        print(f"  {name:<{w0}}  {value:>{w1}}  {('target ' + target) if target else '':<22}  {base}")
+    if r["not_measured"]:
+        print(f"  not measured: {', '.join(r['not_measured'])}")
     return 0
 
 
