@@ -490,7 +490,7 @@ def _instruments(ck: _Checker, raw: Any, ) -> list[InstrumentConfig]:
                                   check=lambda v: None if v in (2, 3, 4) else f"must be 2, 3 or 4, got {v!r}")
             kw["reference_ohm"] = ck.get(d, key, "reference_ohm", float, default=400.0, check=_positive)
             kw["bits"] = ck.get(d, key, "bits", int, default=24,
-                                check=lambda v: None if 8 <= v <= 32 else f"must be 8…32, got {v!r}")
+                                check=lambda v: None if 8 <= v <= 24 else f"must be 8…24 (the board's counts), got {v!r}")
             kw["reference_tolerance_pct"] = ck.get(d, key, "reference_tolerance_pct", float, default=0.0, check=_non_negative)
             ma = ck.get(d, key, "excitation_ma", float, default=0.25, check=_positive)
             kw["excitation_a"] = (ma or 0.25) / 1000.0
@@ -623,12 +623,15 @@ def _channels(
         inst = ck.get(d, key, "instrument", str, required=True)
         if inst is not None and inst not in instruments and inst not in declared_instruments:
             ck.bad(f"{key}.instrument", f"no instrument named {inst!r}; known: {', '.join(instruments) or 'none'}")
+        icfg = instruments.get(inst or "")
         inp = d.get("input")
         if isinstance(inp, int) and not isinstance(inp, bool):
             inp = str(inp)
         if not isinstance(inp, str) or not inp:
             ck.bad(f"{key}.input", f"is required: the instrument's input (\"101\" on a scanner card, \"0\" on a board), got {inp!r}")
             inp = None
+        elif icfg is not None and icfg.driver == "serial-adc" and not (inp.isdigit() and 0 <= int(inp) <= 63):
+            ck.bad(f"{key}.input", f"a board input is a number 0…63, got {inp!r}")
         elif inst is not None and (inst, inp) in inputs:
             ck.bad(f"{key}.input", f"input {inp} of {inst} is used by another channel")
         if inst is not None and inp is not None:
@@ -636,7 +639,6 @@ def _channels(
         sensor = ck.get(d, key, "sensor", str, required=True)
         if sensor is not None and sensor not in sensors and sensor not in declared_sensors:
             ck.bad(f"{key}.sensor", f"no sensor named {sensor!r}; known: {', '.join(sensors) or 'none'}")
-        icfg = instruments.get(inst or "")
         default_wiring = icfg.wiring if icfg is not None else 4
         wiring = ck.get(d, key, "wiring", int, default=default_wiring,
                         check=lambda v: None if v in (2, 3, 4) else f"must be 2, 3 or 4, got {v!r}")
