@@ -954,3 +954,15 @@ def test_cli_check_prints_warnings_and_exits_0(tmp_path):
     assert p.returncode == 0, p.stderr
     assert "warnings:" in p.stdout
     assert "sensor pt100: no class or calibration" in p.stdout
+
+
+def test_a_board_input_is_a_number_the_protocol_can_carry():
+    # the board protocol carries 1 to 64 channels, numbered 0…63 (README: the board's protocol)
+    text = (
+        '[station]\nname = "s"\n[[instrument]]\nname = "b"\ndriver = "serial-adc"\nport = "/dev/null"\n'
+        '[[sensor]]\nname = "p"\nclass = "B"\n'
+        '[[channel]]\nname = "c"\ninstrument = "b"\ninput = "A1"\nsensor = "p"\nlead = { ohms = 0.1 }\n'
+    )
+    with pytest.raises(ConfigProblems) as exc:
+        parse_config(text, "/lab/s.toml")
+    assert exc.value.problems == [("channel[1].input", "a board input is a number 0…63, got 'A1'")]
