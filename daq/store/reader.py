@@ -153,10 +153,13 @@ class ReadingMixin:
         return {"source": "rollup", "t_ms": t_mid, "mean_c": mean, "min_c": arr[:, 2], "max_c": arr[:, 3]}
 
     def summary(self, run_id: int) -> list[dict[str, Any]]:
-        """Per channel over the whole run, from the rollups: count, bad, min, max, mean."""
+        """Per channel over the whole run: count, readings without temperature, min, max, mean, largest U.
+
+        Kept as running totals by the writer, so a 1000-hour run costs what a new one costs.
+        """
         rows = self._conn.execute(
-            "SELECT c.name, SUM(r.n), SUM(r.n_bad), MIN(r.t_min), MAX(r.t_max), SUM(r.t_sum), MAX(r.u_max) "
-            "FROM channels c LEFT JOIN rollup_1m r ON r.ch = c.id WHERE c.run_id = ? GROUP BY c.id ORDER BY c.id",
+            "SELECT c.name, l.n, l.n_bad, l.t_min_c, l.t_max_c, l.t_sum, l.u_max "
+            "FROM channels c LEFT JOIN latest l ON l.ch = c.id WHERE c.run_id = ? ORDER BY c.id",
             (run_id,),
         ).fetchall()
         out = []
@@ -164,7 +167,8 @@ class ReadingMixin:
             good = (n or 0) - (bad or 0)
             out.append({
                 "channel": name, "readings": n or 0, "without_temperature": bad or 0,
-                "min_c": tmin, "max_c": tmax, "mean_c": (tsum / good) if good else None, "max_u_c": umax,
+                "min_c": tmin, "max_c": tmax, "mean_c": (tsum / good) if good and tsum is not None else None,
+                "max_u_c": umax,
             })
         return out
 

@@ -180,6 +180,20 @@ MIGRATIONS: list[tuple[int, str]] = [
         );
         """,
     ),
+    (
+        3,
+        """
+        ALTER TABLE latest ADD COLUMN n INTEGER NOT NULL DEFAULT 0;
+        ALTER TABLE latest ADD COLUMN n_bad INTEGER NOT NULL DEFAULT 0;
+        ALTER TABLE latest ADD COLUMN t_sum REAL;
+        ALTER TABLE latest ADD COLUMN u_max REAL;
+        UPDATE latest SET
+            n = COALESCE((SELECT SUM(r.n) FROM rollup_1m r WHERE r.ch = latest.ch), 0),
+            n_bad = COALESCE((SELECT SUM(r.n_bad) FROM rollup_1m r WHERE r.ch = latest.ch), 0),
+            t_sum = (SELECT SUM(r.t_sum) FROM rollup_1m r WHERE r.ch = latest.ch),
+            u_max = (SELECT MAX(r.u_max) FROM rollup_1m r WHERE r.ch = latest.ch);
+        """,
+    ),
 ]
 
 SCHEMA_VERSION = MIGRATIONS[-1][0]

@@ -153,8 +153,12 @@ class WritingMixin:
                     rollups,
                 )
                 conn.executemany(
-                    "INSERT INTO latest (ch, t_ms, raw, temp_c, u_c, status, flags, last_ok_ms, last_ok_temp_c, t_min_c, t_max_c) "
-                    "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT (ch) DO UPDATE SET "
+                    "INSERT INTO latest (ch, t_ms, raw, temp_c, u_c, status, flags, last_ok_ms, last_ok_temp_c, "
+                    "t_min_c, t_max_c, n, n_bad, t_sum, u_max) "
+                    "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT (ch) DO UPDATE SET "
+                    "n = n + excluded.n, n_bad = n_bad + excluded.n_bad, "
+                    "t_sum = COALESCE(t_sum, 0) + COALESCE(excluded.t_sum, 0), "
+                    "u_max = CASE WHEN u_max IS NULL OR excluded.u_max > u_max THEN excluded.u_max ELSE u_max END, "
                     "t_ms = excluded.t_ms, raw = excluded.raw, temp_c = excluded.temp_c, u_c = excluded.u_c, "
                     "status = excluded.status, flags = excluded.flags, "
                     "last_ok_ms = COALESCE(excluded.last_ok_ms, last_ok_ms), "
@@ -247,7 +251,7 @@ def _rollups(batch: SampleBatch) -> list[tuple[int, int, int, int, float | None,
 
 
 def _latest(batch: SampleBatch) -> list[tuple[Any, ...]]:
-    """Each channel's last reading in the batch, its last good one and the batch's min/max."""
+    """Each channel's last reading in the batch, its last good one, and the batch's totals."""
     out = []
     good = np.isfinite(batch.temp_c)
     for ch in np.unique(batch.ch).tolist():
@@ -258,6 +262,10 @@ def _latest(batch: SampleBatch) -> list[tuple[Any, ...]]:
         last_ok_t = float(batch.temp_c[g[-1]]) if g.size else None
         tmin = float(batch.temp_c[g].min()) if g.size else None
         tmax = float(batch.temp_c[g].max()) if g.size else None
+        tsum = float(batch.temp_c[g].sum()) if g.size else None
+        ug = batch.u_c[g]
+        ug = ug[np.isfinite(ug)]
+        umax = float(ug.max()) if ug.size else None
         t = batch.temp_c[last]
         u = batch.u_c[last]
         r = batch.raw[last]
@@ -268,6 +276,7 @@ def _latest(batch: SampleBatch) -> list[tuple[Any, ...]]:
             float(u) if np.isfinite(u) else None,
             int(batch.status[last]), int(batch.flags[last]),
             last_ok_ms, last_ok_t, tmin, tmax,
+            int(idx.size), int(idx.size - g.size), tsum, umax,
         ))
     return out
 
