@@ -30,7 +30,7 @@ def status_report(store: Store, run_id: int | None = None, *, now_ms: int | None
             "raw": c["raw"], "raw_unit": c["raw_unit"], "min_c": c["min_c"], "max_c": c["max_c"],
             "last_good_age_s": age,
         })
-    alarms = store.active_alarms(rid) if hasattr(store, "active_alarms") else []
+    alarms = store.alarms(rid, active_only=True)
     return {
         "database": store.path,
         "run": {"id": rid, "station": run["station"], "name": run["name"], "started_utc": run["started_utc"],

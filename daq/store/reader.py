@@ -63,6 +63,44 @@ class ReadingMixin:
             for r in rows
         ]
 
+    def pending_operator_actions(self) -> list[dict[str, Any]]:
+        """Operator requests the service has not applied yet, oldest first."""
+        rows = self._conn.execute(
+            "SELECT id, t_ms, kind, target, note, actor, until_ms FROM operator_actions "
+            "WHERE applied_ms IS NULL ORDER BY id"
+        ).fetchall()
+        return [
+            {"id": r[0], "t_ms": r[1], "kind": r[2], "target": r[3], "note": r[4], "actor": r[5], "until_ms": r[6]}
+            for r in rows
+        ]
+
+    def operator_actions(self, *, after_id: int = 0, limit: int = 10_000) -> list[dict[str, Any]]:
+        """Every operator request with what became of it."""
+        rows = self._conn.execute(
+            "SELECT id, t_ms, kind, target, note, actor, until_ms, applied_ms, outcome FROM operator_actions "
+            "WHERE id > ? ORDER BY id LIMIT ?", (after_id, limit),
+        ).fetchall()
+        keys = ("id", "t_ms", "kind", "target", "note", "actor", "until_ms", "applied_ms", "outcome")
+        return [dict(zip(keys, r, strict=True)) for r in rows]
+
+    def alarms(self, run_id: int, *, active_only: bool = False) -> list[dict[str, Any]]:
+        """The run's alarms and their states (empty until the alarm engine has stored any).
+
+        Each: ``id``, ``rule``, ``channel``, ``state``, ``severity``, ``message``,
+        ``since_utc``, ``acked``, ``shelved_until_utc``. States (ANSI/ISA-18.2):
+        ``normal``, ``unacknowledged``, ``acknowledged``, ``returned_unacknowledged``,
+        ``latched``, ``shelved``, ``out_of_service``.
+        """
+        has = self._conn.execute(
+            "SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = 'alarm_states'"
+        ).fetchone()
+        if not has:
+            return []
+        return self._alarm_rows(run_id, active_only=active_only)
+
+    def _alarm_rows(self, run_id: int, *, active_only: bool) -> list[dict[str, Any]]:
+        raise NotImplementedError("the alarm_states table exists but this soaklog cannot read it")
+
     def instruments(self, run_id: int) -> list[dict[str, Any]]:
         rows = self._conn.execute(
             "SELECT name, updated_ms, connected, identity, health FROM instruments WHERE run_id = ? ORDER BY name",

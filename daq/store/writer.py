@@ -209,6 +209,32 @@ class WritingMixin:
         except sqlite3.Error as exc:
             raise StorageError(f"cannot record instrument {name!r} in {self.path}: {exc}") from exc
 
+    def add_operator_action(
+        self, kind: str, *, target: str = "", note: str = "", actor: str = "", now_ms: int, until_ms: int | None = None
+    ) -> int:
+        """Queue an operator's request (acknowledge, shelve, unshelve, note) for the service to apply.
+
+        Viewers write only here: the service is the only writer of alarm
+        states, and records what it did with each request (``outcome``).
+        """
+        try:
+            cur = self._conn.execute(
+                "INSERT INTO operator_actions (t_ms, kind, target, note, actor, until_ms) VALUES (?, ?, ?, ?, ?, ?)",
+                (int(now_ms), kind, target, note, actor, until_ms),
+            )
+        except sqlite3.Error as exc:
+            raise StorageError(f"cannot record the operator's {kind!r} in {self.path}: {exc}") from exc
+        return int(cur.lastrowid or 0)
+
+    def mark_operator_action(self, action_id: int, *, now_ms: int, outcome: str) -> None:
+        """Record that the service applied (or refused) an operator's request."""
+        try:
+            self._conn.execute(
+                "UPDATE operator_actions SET applied_ms = ?, outcome = ? WHERE id = ?", (int(now_ms), outcome, action_id)
+            )
+        except sqlite3.Error as exc:
+            raise StorageError(f"cannot record the outcome of operator action {action_id} in {self.path}: {exc}") from exc
+
     def checkpoint(self) -> None:
         try:
             self._conn.execute("PRAGMA wal_checkpoint(PASSIVE)").fetchall()
