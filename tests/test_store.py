@@ -168,3 +168,30 @@ def test_events_view(store):
         ("2025-12-02T00:00:00.000Z", "service_start", None, "info", "logger started"),
         ("2025-12-02T00:00:01.000Z", "instrument_lost", "t1", "warning", "dmm1 lost"),
     ]
+
+
+def test_a_version_2_file_upgrades_and_its_totals_come_from_the_rollups(tmp_path):
+    """Migration 3 adds running totals to an existing file and fills them from its minute rollups."""
+    from daq.store.schema import MIGRATIONS, statements
+
+    p = tmp_path / "old.db"
+    conn = sqlite3.connect(p, isolation_level=None)
+    for version, sql in MIGRATIONS[:2]:
+        for stmt in statements(sql):
+            conn.execute(stmt)
+        conn.execute(f"PRAGMA user_version = {version}")
+    conn.execute("INSERT INTO runs (id, started_utc, config, config_sha256) VALUES (1, 'x', 'c', 'h')")
+    conn.execute("INSERT INTO channels (id, run_id, name) VALUES (1, 1, 't1')")
+    conn.executemany(
+        "INSERT INTO rollup_1m (ch, minute, n, n_bad, t_min, t_max, t_sum, u_max) VALUES (1, ?, ?, ?, ?, ?, ?, ?)",
+        [(0, 60, 0, 19.0, 21.0, 1200.0, 0.3), (1, 60, 2, 18.5, 22.0, 1160.0, 0.4)],
+    )
+    conn.execute("INSERT INTO latest (ch, t_ms, status, flags, t_min_c, t_max_c) VALUES (1, 119000, 0, 0, 18.5, 22.0)")
+    conn.close()
+    with Store.open(p) as s:
+        assert s.schema_version() >= 3
+        (row,) = s.summary(1)
+    # worked by hand: 120 readings, 2 without temperature, mean = (1200 + 1160) / 118
+    assert row["readings"] == 120 and row["without_temperature"] == 2
+    assert row["mean_c"] == pytest.approx(2360.0 / 118.0)
+    assert row["max_u_c"] == 0.4 and row["min_c"] == 18.5 and row["max_c"] == 22.0
