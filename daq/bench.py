@@ -90,9 +90,29 @@ def _replies(n_scans: int, n_channels: int, seed: int) -> list[str]:
     return [",".join(f"{v:+.8E}" for v in row) for row in r.tolist()]
 
 
-def bench_ingest(n_channels: int = 32, n_scans: int = 12_500, seed: int = 7) -> dict[str, Any]:
+def bench_ingest(n_channels: int = 32, n_scans: int = 12_500, seed: int = 7, rounds: int = 3) -> dict[str, Any]:
     """Readings/s through parse → pipeline → store, committing each second as the service does,
-    against bare ``sqlite3`` ``executemany`` of the same rows into the same schema and commits."""
+    against bare ``sqlite3`` ``executemany`` of the same rows into the same schema and commits.
+
+    Both run ``rounds`` times, alternating, each on a fresh file; the best of
+    each is kept (a shared machine only ever makes a run slower).
+    """
+    best: dict[str, Any] | None = None
+    for _ in range(rounds):
+        r = _ingest_round(n_channels, n_scans, seed)
+        if best is None:
+            best = r
+        else:
+            best["ingest_readings_per_s"] = max(best["ingest_readings_per_s"], r["ingest_readings_per_s"])
+            best["ingest_executemany_readings_per_s"] = max(
+                best["ingest_executemany_readings_per_s"], r["ingest_executemany_readings_per_s"])
+    assert best is not None
+    best["ingest_ratio_vs_executemany"] = best["ingest_readings_per_s"] / best["ingest_executemany_readings_per_s"]
+    best["ingest_rounds"] = rounds
+    return best
+
+
+def _ingest_round(n_channels: int, n_scans: int, seed: int) -> dict[str, Any]:
     import sqlite3
     import tempfile
     from pathlib import Path
