@@ -1,4 +1,4 @@
-"""A serial RTD ADC board on a pseudo-terminal, speaking the protocol of ``simulators.adcframe``.
+"""A serial RTD ADC board on a pseudo-terminal, speaking the protocol of ``drivers.adcframe``.
 
 The board has one ratiometric 24-bit converter per input: it drives the
 excitation current through the RTD and its reference resistor in series and
@@ -56,7 +56,7 @@ import tty
 from collections.abc import Sequence
 
 from daq.errors import InputError
-from simulators import adcframe as af
+from drivers import adcframe as af
 from simulators.control import CommandTable, ControlError, ControlServer
 from simulators.plant import OPEN_OHM, FixedPlant, Plant
 

@@ -21,7 +21,7 @@ from daq.errors import ConfigError, ConnectionLost, InputError, InstrumentTimeou
 from drivers.base import STATUSES, RawReading
 from drivers.serial_adc import AdcStream, SerialAdc
 from simulators.adc import MAKER, MODEL, AdcBoardSimulator
-from simulators.adcframe import Frame, encode_command, encode_frame
+from drivers.adcframe import Frame, encode_command, encode_frame
 from simulators.plant import OPEN_OHM, FixedPlant
 
 FS24 = 2**23

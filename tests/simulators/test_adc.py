@@ -16,7 +16,7 @@ import serial
 
 from daq.errors import InputError
 from simulators.adc import FIRMWARE, MAKER, MODEL, AdcBoardSimulator
-from simulators.adcframe import (
+from drivers.adcframe import (
     FLAG_CHANNEL_FAULT,
     FLAG_CONFIG_CHANGED,
     FLAG_STREAM_START,

@@ -8,9 +8,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-import simulators.adcframe as adcframe
+import drivers.adcframe as adcframe
 from daq.errors import InputError
-from simulators.adcframe import (
+from drivers.adcframe import (
     MAX_CHANNELS,
     MAX_LINE_BYTES,
     Command,
