@@ -11,7 +11,7 @@ import datetime as _dt
 import math
 import re
 import tomllib
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -38,6 +38,7 @@ __all__ = [
     "SensorConfig",
     "ChannelConfig",
     "AlarmConfig",
+    "ActionConfig",
     "ConfigProblems",
     "DEFAULT_TEST_CURRENT_A",
 ]
@@ -144,14 +145,44 @@ class ChannelConfig:
 
 
 @dataclass(frozen=True)
+class ActionConfig:
+    """What to do when an alarm changes state (``on``: raised, cleared, acknowledged).
+
+    ``kind`` is log, program (``argv``, ``timeout_s``), scpi (``resource``,
+    ``commands``, ``backend``, ``timeout_s``, ``check_errors``, ``verify``) or
+    serial_line (``port``, ``line``, ``state``, ``baudrate``).
+    """
+
+    kind: str
+    on: tuple[str, ...]
+    params: Mapping[str, Any]
+    label: str = ""
+
+    @property
+    def name(self) -> str:
+        """How the action is named in events: its label, or what it does."""
+        if self.label:
+            return self.label
+        p = self.params
+        if self.kind == "program":
+            return "program " + " ".join(p.get("argv", ()))[:80]
+        if self.kind == "scpi":
+            return f"scpi {'; '.join(p.get('commands', ()))} to {p.get('resource', '')}"
+        if self.kind == "serial_line":
+            return f"{'set' if p.get('state') else 'clear'} {str(p.get('line', '')).upper()} of {p.get('port', '')}"
+        return "log"
+
+
+@dataclass(frozen=True)
 class AlarmConfig:
-    """An alarm rule as written; the alarm engine interprets ``params``."""
+    """An alarm rule as written, validated, with every default filled in (durations in seconds: ``on_delay_s``)."""
 
     name: str
     kind: str
     channels: tuple[str, ...]
     severity: str
     params: Mapping[str, Any]
+    actions: tuple[ActionConfig, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -391,7 +422,7 @@ def parse_config(text: str, path: str = "<config>", *, today: _dt.date | None = 
     sens_by_name = {s.name: s for s in sensors}
     channels = _channels(ck, data.get("channel", []), inst_by_name, sens_by_name,
                          _declared(data.get("instrument")), _declared(data.get("sensor")))
-    alarms = _alarms(ck, data.get("alarm", []), {c.name for c in channels})
+    alarms = _alarms(ck, data.get("alarm", []), {c.name for c in channels}, instruments, channels)
     profile = ck.table(data.get("profile", {}), "profile")
 
     if not channels and not ck.problems:
@@ -707,11 +738,58 @@ def _leads(ck: _Checker, d: Mapping[str, Any], key: str, wiring: int | None) -> 
 
 _ALARM_KINDS = {"high", "high_high", "low", "low_low", "rate", "deviation", "spread", "sensor_fault", "stale", "instrument_lost"}
 _SEVERITIES = {"low", "medium", "high", "critical"}
+#: every status a stored reading can have (the store's list; a test keeps them equal)
+_READING_STATUSES = {
+    "ok", "open", "short", "overload", "out_of_range", "timeout", "lost", "garbage", "checksum", "error", "invalid", "stale",
+}
+_ALARM_KEYS_ANY = {"actions", "on_delay", "off_delay", "latch", "shelvable", "in_service", "description"}
+_ALARM_KEYS_KIND: dict[str, set[str]] = {
+    "high": {"limit_c", "deadband_k"},
+    "high_high": {"limit_c", "deadband_k"},
+    "low": {"limit_c", "deadband_k"},
+    "low_low": {"limit_c", "deadband_k"},
+    "rate": {"limit_k_per_min", "deadband_k_per_min", "window", "direction"},
+    "deviation": {"limit_k", "deadband_k", "setpoint_c", "reference", "max_age"},
+    "spread": {"limit_k", "deadband_k", "max_age"},
+    "sensor_fault": {"statuses"},
+    "stale": {"stale_after"},
+    "instrument_lost": {"instrument", "instruments"},
+}
+_ACTION_KINDS = {"log", "program", "scpi", "serial_line"}
+_ACTION_TRIGGERS = {"raised", "cleared", "acknowledged"}
+_ACTION_KEYS: dict[str, set[str]] = {
+    "log": {"message"},
+    "program": {"argv", "timeout"},
+    "scpi": {"resource", "commands", "backend", "timeout", "check_errors", "verify"},
+    "serial_line": {"port", "line", "state", "baudrate"},
+}
+_ACTION_KEYS_ANY = {"kind", "on", "name"}
+#: the longest an action may run (a hung program is killed at its limit)
+MAX_ACTION_TIMEOUT_S = 600.0
 
 
-def _alarms(ck: _Checker, raw: Any, channel_names: set[str]) -> list[AlarmConfig]:
+def _delay(ck: _Checker, d: Mapping[str, Any], key: str, name: str, default_s: float) -> float:
+    """A duration that may be zero (a delay), in seconds."""
+    if name not in d:
+        return default_s
+    try:
+        s = parse_duration(d[name])
+    except InputError as exc:
+        ck.bad(f"{key}.{name}", str(exc))
+        return default_s
+    return s
+
+
+def _alarms(
+    ck: _Checker, raw: Any, channel_names: set[str], instruments: Sequence[InstrumentConfig] = (),
+    channels: Sequence[ChannelConfig] = (),
+) -> list[AlarmConfig]:
+    from daq.alarms import DEFAULT_MAX_AGE_S, DEFAULT_RATE_WINDOW_S, DEFAULT_STALE_AFTER_S, FAULT_STATUSES, KIND_DEFAULTS
+
     out: list[AlarmConfig] = []
     seen: set[str] = set()
+    inst_by_name = {i.name: i for i in instruments}
+    inst_of_channel = {c.name: c.instrument for c in channels}
     for i, item in enumerate(_array(ck, raw, "alarm")):
         key = f"alarm[{i + 1}]"
         d = ck.table(item, key)
@@ -719,7 +797,8 @@ def _alarms(ck: _Checker, raw: Any, channel_names: set[str]) -> list[AlarmConfig
         _unique_name(ck, seen, name, key)
         kind = ck.get(d, key, "kind", str, required=True,
                       check=lambda v: None if v in _ALARM_KINDS else f"must be one of {', '.join(sorted(_ALARM_KINDS))}, got {v!r}")
-        sev = ck.get(d, key, "severity", str, default="high",
+        kd = KIND_DEFAULTS.get(kind or "")
+        sev = ck.get(d, key, "severity", str, default=kd.severity if kd else "high",
                      check=lambda v: None if v in _SEVERITIES else f"must be one of {', '.join(sorted(_SEVERITIES))}, got {v!r}")
         chans: list[str] = []
         if "channel" in d:
@@ -734,11 +813,181 @@ def _alarms(ck: _Checker, raw: Any, channel_names: set[str]) -> list[AlarmConfig
         for c in chans:
             if c not in channel_names and c != "*":
                 ck.bad(f"{key}.channels", f"no channel named {c!r}")
-        params = {k: v for k, v in d.items() if k not in _ALARM_KEYS_COMMON}
-        if name is None or kind is None or sev is None:
+        if kd is None or kind is None:
+            # an unknown kind: which other keys belong to it cannot be told
             continue
-        out.append(AlarmConfig(name, kind, tuple(chans), sev, params))
+        ck.unknown(d, key, _ALARM_KEYS_COMMON | _ALARM_KEYS_ANY | _ALARM_KEYS_KIND[kind])
+        p: dict[str, Any] = {}
+        p["on_delay_s"] = _delay(ck, d, key, "on_delay", kd.on_delay_s)
+        p["off_delay_s"] = _delay(ck, d, key, "off_delay", kd.off_delay_s)
+        for flag, default in (("latch", kd.latch), ("shelvable", kd.shelvable), ("in_service", True)):
+            v = ck.get(d, key, flag, bool, default=default)
+            p[flag] = default if v is None else v
+        if "description" in d:
+            p["description"] = ck.get(d, key, "description", str, default="") or ""
+        all_chans = sorted(channel_names) if "*" in chans else chans
+        if kind == "instrument_lost":
+            if chans:
+                ck.bad(f"{key}.channels", "an instrument_lost alarm watches instruments: give instrument or instruments")
+            names: list[str] = []
+            if "instrument" in d:
+                v = ck.get(d, key, "instrument", str)
+                names += [v] if v else []
+            if "instruments" in d:
+                vs = d["instruments"]
+                if not isinstance(vs, list) or not all(isinstance(x, str) for x in vs):
+                    ck.bad(f"{key}.instruments", f"must be a list of instrument names, got {vs!r}")
+                else:
+                    names += vs
+            for n in names:
+                if n not in inst_by_name:
+                    ck.bad(f"{key}.instruments", f"no instrument named {n!r}; known: {', '.join(inst_by_name) or 'none'}")
+            p["instruments"] = tuple(dict.fromkeys(names))
+        elif not chans:
+            ck.bad(f"{key}.channels", 'is required: the channels it watches (channels = ["*"] for all)')
+        if kd.limit_key is not None:
+            positive = kind in ("rate", "deviation", "spread")
+            limit = ck.get(d, key, kd.limit_key, float, required=True, check=_positive if positive else None)
+            db_key = "deadband_k_per_min" if kind == "rate" else "deadband_k"
+            default_db = kd.deadband * abs(limit) if kind == "rate" and limit is not None else kd.deadband
+            db = ck.get(d, key, db_key, float, default=default_db, check=_non_negative)
+            if limit is not None:
+                p[kd.limit_key] = limit
+            if db is not None:
+                if positive and limit is not None and db >= limit:
+                    ck.bad(f"{key}.{db_key}", f"must be smaller than the limit ({limit:g}), got {db:g}")
+                p[db_key] = db
+        if kind == "rate":
+            p["window_s"] = ck.duration(d, key, "window", default=None) or DEFAULT_RATE_WINDOW_S
+            direction = ck.get(d, key, "direction", str, default="both",
+                               check=lambda v: None if v in ("rise", "fall", "both") else f"must be rise, fall or both, got {v!r}")
+            p["direction"] = direction or "both"
+        if kind in ("deviation", "spread"):
+            p["max_age_s"] = ck.duration(d, key, "max_age", default=None) or DEFAULT_MAX_AGE_S
+        if kind == "deviation":
+            has_sp, has_ref = "setpoint_c" in d, "reference" in d
+            if has_sp == has_ref:
+                ck.bad(key, "a deviation alarm needs setpoint_c (a fixed set point) or reference (a channel), one of them")
+            elif has_sp:
+                sp = ck.get(d, key, "setpoint_c", float)
+                if sp is not None:
+                    p["setpoint_c"] = sp
+            else:
+                ref = ck.get(d, key, "reference", str)
+                if ref is not None and ref not in channel_names:
+                    ck.bad(f"{key}.reference", f"no channel named {ref!r}")
+                elif ref is not None and ref in all_chans:
+                    ck.bad(f"{key}.reference", f"{ref!r} is one of the channels it watches; compare with another channel")
+                elif ref is not None:
+                    p["reference"] = ref
+        if kind == "spread" and chans and len(set(all_chans)) < 2:
+            ck.bad(f"{key}.channels", f"a spread needs two channels or more, got {all_chans!r}")
+        if kind == "sensor_fault":
+            sts = d.get("statuses", sorted(FAULT_STATUSES))
+            if not isinstance(sts, list) or not sts or not all(isinstance(x, str) for x in sts):
+                ck.bad(f"{key}.statuses", f"must be a list of reading statuses, got {sts!r}")
+            else:
+                bad = [x for x in sts if x not in _READING_STATUSES or x == "ok"]
+                if bad:
+                    ck.bad(f"{key}.statuses", f"unknown status {bad[0]!r}; known: "
+                           f"{', '.join(sorted(_READING_STATUSES - {'ok'}))}")
+                else:
+                    p["statuses"] = tuple(sts)
+        if kind == "stale":
+            slowest = max((inst_by_name[inst_of_channel[c]].interval_s for c in all_chans
+                           if c in inst_of_channel and inst_of_channel[c] in inst_by_name), default=0.0)
+            # three missed scans at least, so one late scan never raises it (common practice, no published source)
+            default_s = max(DEFAULT_STALE_AFTER_S, 3.0 * slowest)
+            after = ck.duration(d, key, "stale_after", default=None)
+            if after is not None and after <= slowest:
+                ck.bad(f"{key}.stale_after", f"must be longer than the slowest scan interval of its channels ({slowest:g} s), got {after:g} s")
+            p["stale_after_s"] = after if after is not None else default_s
+        actions = _actions(ck, d.get("actions", []), f"{key}.actions") if "actions" in d else []
+        if name is None or sev is None:
+            continue
+        out.append(AlarmConfig(name, kind, tuple(chans), sev, p, tuple(actions)))
     return out
+
+
+def _actions(ck: _Checker, raw: Any, key: str) -> list[ActionConfig]:
+    out: list[ActionConfig] = []
+    if not isinstance(raw, list):
+        ck.bad(key, f"must be a list of tables ([[alarm.actions]] or [{{ kind = \"log\" }}]), got {type(raw).__name__}")
+        return out
+    for j, item in enumerate(raw):
+        k = f"{key}[{j + 1}]"
+        d = ck.table(item, k)
+        kind = ck.get(d, k, "kind", str, required=True,
+                      check=lambda v: None if v in _ACTION_KINDS else f"must be one of {', '.join(sorted(_ACTION_KINDS))}, got {v!r}")
+        if kind is None:
+            continue
+        ck.unknown(d, k, _ACTION_KEYS_ANY | _ACTION_KEYS[kind])
+        on = d.get("on", ["raised"])
+        if isinstance(on, str):
+            on = [on]
+        if not isinstance(on, list) or not on or not all(isinstance(x, str) and x in _ACTION_TRIGGERS for x in on):
+            ck.bad(f"{k}.on", f"must be one or more of {', '.join(sorted(_ACTION_TRIGGERS))}, got {d.get('on')!r}")
+            on = ["raised"]
+        p: dict[str, Any] = {}
+        label = ck.get(d, k, "name", str, default="") or ""
+        ok = True
+        if kind == "log":
+            p["message"] = ck.get(d, k, "message", str, default="") or ""
+        elif kind == "program":
+            argv = d.get("argv")
+            if (not isinstance(argv, list) or not argv or not all(isinstance(a, str) for a in argv)
+                    or not argv[0].strip()):
+                ck.bad(f"{k}.argv", f"must be the program and its arguments as a list of text, "
+                       f"run without a shell: [\"/usr/local/bin/page-lab\", \"--urgent\"]; got {argv!r}")
+                ok = False
+            else:
+                p["argv"] = tuple(argv)
+            p["timeout_s"] = _action_timeout(ck, d, k, "10s")
+        elif kind == "scpi":
+            res = ck.get(d, k, "resource", str, required=True)
+            cmds = d.get("commands")
+            if not isinstance(cmds, list) or not cmds or not all(isinstance(c, str) and c.strip() for c in cmds) \
+                    or any("\n" in c for c in cmds):
+                ck.bad(f"{k}.commands", f"must be a list of SCPI commands, one line each: [\"OUTP OFF\"]; got {cmds!r}")
+                ok = False
+            else:
+                p["commands"] = tuple(c.strip() for c in cmds)
+            if res is None:
+                ok = False
+            else:
+                p["resource"] = res
+            p["backend"] = ck.get(d, k, "backend", str, default="@py") or "@py"
+            p["timeout_s"] = _action_timeout(ck, d, k, "5s")
+            ce = ck.get(d, k, "check_errors", bool, default=True)
+            p["check_errors"] = True if ce is None else ce
+            if "verify" in d:
+                vk = f"{k}.verify"
+                v = ck.table(d["verify"], vk)
+                ck.unknown(v, vk, {"query", "reply"})
+                q = ck.get(v, vk, "query", str, required=True, check=lambda x: None if x.strip().endswith("?") else f"must be a query (ending in '?'), got {x!r}")
+                r = ck.get(v, vk, "reply", str, required=True)
+                if q is not None and r is not None:
+                    p["verify"] = (q.strip(), r.strip())
+        elif kind == "serial_line":
+            port = ck.get(d, k, "port", str, required=True)
+            line = ck.get(d, k, "line", str, required=True,
+                          check=lambda v: None if v.lower() in ("rts", "dtr") else f"must be rts or dtr, got {v!r}")
+            state = ck.get(d, k, "state", bool, default=True)
+            baud = ck.get(d, k, "baudrate", int, default=9600, check=_positive)
+            if port is None or line is None:
+                ok = False
+            else:
+                p.update(port=port, line=line.lower(), state=bool(state), baudrate=baud or 9600)
+        if ok:
+            out.append(ActionConfig(kind, tuple(dict.fromkeys(on)), p, label))
+    return out
+
+
+def _action_timeout(ck: _Checker, d: Mapping[str, Any], key: str, default: str) -> float:
+    s = ck.duration(d, key, "timeout", default=default) or parse_duration(default)
+    if s > MAX_ACTION_TIMEOUT_S:
+        ck.bad(f"{key}.timeout", f"must be at most {MAX_ACTION_TIMEOUT_S:g} s, got {s:g} s")
+    return s
 
 
 def _metrology_warnings(

@@ -1,0 +1,866 @@
+"""The alarm engine: samples and the current time in, alarm state changes and events out (pure).
+
+States follow the alarm state model of ANSI/ISA-18.2 and IEC 62682 (from
+memory of both): ``normal``; ``unacknowledged`` (condition active, not yet
+acknowledged); ``acknowledged`` (active, acknowledged); ``returned_unacknowledged``
+(condition gone, never acknowledged); ``latched`` (condition gone, held until
+an operator resets it with an acknowledgement); ``shelved`` (suppressed by an
+operator until an expiry); ``out_of_service`` (taken out by configuration or
+maintenance). Shelved and out-of-service alarms keep following their condition,
+so they come back in the state the process is in.
+
+Each alarm point (one rule on one channel, one group, or one instrument) goes
+through three stages on every evaluation:
+
+1. the rule's test on the value, with the **deadband** applied on the way back
+   (a high alarm raised above ``limit`` clears only below ``limit - deadband``);
+2. the **on-delay** and **off-delay**: the tested condition must hold without
+   a break for that long (in sample time) before the alarm's condition changes;
+3. the state machine, which changes state only when the delayed condition
+   changes, or an operator acts, or a shelf expires.
+
+So chattering is suppressed by construction: noise smaller than the deadband
+cannot clear a raised alarm, and a spike shorter than the on-delay cannot raise
+one. Every event is a state change (an operator's note is the one event that
+is not, and it comes only from ``note``).
+
+No clock, no I/O, no sleeping: time is the samples' stamps and ``now_s``,
+seconds on one time line (the service uses UTC seconds).
+"""
+
+from __future__ import annotations
+
+import math
+from collections import deque
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from dataclasses import dataclass, field, replace
+from typing import TYPE_CHECKING, Literal
+
+if TYPE_CHECKING:
+    from daq.config import AlarmConfig, StationConfig
+
+__all__ = [
+    "STATES",
+    "ACTIVE_STATES",
+    "KINDS",
+    "KIND_DEFAULTS",
+    "FAULT_STATUSES",
+    "MAX_SHELVE_S",
+    "KindDefaults",
+    "Sample",
+    "Rule",
+    "AlarmState",
+    "AlarmEvent",
+    "OperatorResult",
+    "AlarmEngine",
+    "evaluate",
+    "acknowledge",
+    "shelve",
+    "unshelve",
+    "remove_from_service",
+    "return_to_service",
+]
+
+State = Literal[
+    "normal", "unacknowledged", "acknowledged", "returned_unacknowledged", "latched", "shelved", "out_of_service"
+]
+STATES: tuple[str, ...] = (
+    "normal", "unacknowledged", "acknowledged", "returned_unacknowledged", "latched", "shelved", "out_of_service",
+)
+#: states in which the alarm asks for the operator (condition active, or not yet seen, or held)
+ACTIVE_STATES = frozenset({"unacknowledged", "acknowledged", "returned_unacknowledged", "latched"})
+
+KINDS: tuple[str, ...] = (
+    "high", "high_high", "low", "low_low", "rate", "deviation", "spread", "sensor_fault", "stale", "instrument_lost",
+)
+
+#: reading statuses that mean the sensor itself is bad (not the link to it)
+FAULT_STATUSES = frozenset({"open", "short", "out_of_range", "overload", "invalid"})
+
+#: the longest an operator may shelve an alarm: one day (ISA-18.2 asks for a
+#: time limit on shelving; the figure is common practice, no published source)
+MAX_SHELVE_S = 24 * 3600.0
+
+
+@dataclass(frozen=True)
+class KindDefaults:
+    """What a rule of one kind does when the station file leaves a setting out.
+
+    Attributes:
+        limit_key: the station file key of the limit (None: the kind has no limit).
+        unit: the limit's unit as shown in messages.
+        deadband: in the limit's unit; for ``rate`` a fraction of the limit.
+        on_delay_s, off_delay_s: the delays.
+        latch: whether the alarm stays latched until reset.
+        shelvable: whether an operator may shelve it.
+        severity: low, medium, high or critical.
+    """
+
+    limit_key: str | None
+    unit: str
+    deadband: float
+    on_delay_s: float
+    off_delay_s: float
+    latch: bool
+    shelvable: bool
+    severity: str
+
+
+# Defaults for temperature. ISA-18.2 (and its technical report on alarm
+# philosophy, with EEMUA 191 in the same spirit) recommends, for temperature
+# signals, a deadband of about 1 % of the operating span and on/off delays of
+# about 60 s (from memory of those documents: flow 5 %/15 s, level 5 %/60 s,
+# pressure 2 %/15 s, temperature 1 %/60 s). 1 K is 1 % of a 100 K span.
+# The high-high and low-low alarms are the last software line before the
+# chamber's own cut-out and usually carry an interlock: no on-delay, latched
+# until a person resets them, never shelvable ("highly managed" alarms in
+# ISA-18.2 terms; the choice is ours, common practice, no published source).
+KIND_DEFAULTS: dict[str, KindDefaults] = {
+    "high": KindDefaults("limit_c", "°C", 1.0, 60.0, 60.0, False, True, "high"),
+    "low": KindDefaults("limit_c", "°C", 1.0, 60.0, 60.0, False, True, "high"),
+    "high_high": KindDefaults("limit_c", "°C", 1.0, 0.0, 60.0, True, False, "critical"),
+    "low_low": KindDefaults("limit_c", "°C", 1.0, 0.0, 60.0, True, False, "critical"),
+    # rate: deadband 10 % of the limit (common practice, no published source)
+    "rate": KindDefaults("limit_k_per_min", "K/min", 0.1, 60.0, 60.0, False, True, "high"),
+    "deviation": KindDefaults("limit_k", "K", 1.0, 60.0, 60.0, False, True, "high"),
+    "spread": KindDefaults("limit_k", "K", 1.0, 60.0, 60.0, False, True, "medium"),
+    # a bad sensor is reported at once and cleared after a minute of good readings
+    "sensor_fault": KindDefaults(None, "", 0.0, 0.0, 60.0, False, True, "high"),
+    # stale_after is itself the delay
+    "stale": KindDefaults(None, "", 0.0, 0.0, 0.0, False, True, "high"),
+    "instrument_lost": KindDefaults(None, "", 0.0, 0.0, 0.0, False, True, "high"),
+}
+#: rate of change: the window the slope is fitted over (common practice, no published source)
+DEFAULT_RATE_WINDOW_S = 120.0
+#: deviation from a reference channel, spread: readings older than this are left out
+DEFAULT_MAX_AGE_S = 60.0
+#: stale: no good reading for this long (at least three scans: see daq.config)
+DEFAULT_STALE_AFTER_S = 60.0
+
+
+# ---------------------------------------------------------------- records
+
+
+@dataclass(frozen=True)
+class Sample:
+    """One reading as the engine sees it: channel, time (s), temperature (°C, NaN if none), status."""
+
+    channel: str
+    t_s: float
+    temperature_c: float
+    status: str = "ok"
+
+
+@dataclass(frozen=True)
+class Rule:
+    """One alarm rule with every setting resolved.
+
+    ``limit`` and ``deadband`` are in the kind's unit: °C for high and low
+    kinds, K for deviation and spread, K/min for rate. ``channels`` are
+    names ("*" expanded by the engine); ``instruments`` only for
+    ``instrument_lost``.
+    """
+
+    name: str
+    kind: str
+    channels: tuple[str, ...] = ()
+    severity: str = "high"
+    limit: float = math.nan
+    deadband: float = 0.0
+    on_delay_s: float = 0.0
+    off_delay_s: float = 0.0
+    latch: bool = False
+    shelvable: bool = True
+    in_service: bool = True
+    window_s: float = DEFAULT_RATE_WINDOW_S
+    direction: Literal["rise", "fall", "both"] = "both"
+    setpoint_c: float | None = None
+    reference: str | None = None
+    max_age_s: float = DEFAULT_MAX_AGE_S
+    stale_after_s: float = DEFAULT_STALE_AFTER_S
+    statuses: frozenset[str] = FAULT_STATUSES
+    instruments: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        if self.kind not in KINDS:
+            raise ValueError(f"alarm {self.name}: unknown kind {self.kind!r}; known: {', '.join(KINDS)}")
+        if KIND_DEFAULTS[self.kind].limit_key is not None and not math.isfinite(self.limit):
+            raise ValueError(f"alarm {self.name}: a {self.kind} rule needs a finite limit, got {self.limit!r}")
+        if self.deadband < 0 or self.on_delay_s < 0 or self.off_delay_s < 0:
+            raise ValueError(f"alarm {self.name}: deadband and delays must not be negative")
+
+    @classmethod
+    def of_kind(cls, name: str, kind: str, channels: Sequence[str] = (), **settings: object) -> Rule:
+        """A rule with the kind's defaults for every setting not given."""
+        d = KIND_DEFAULTS[kind]
+        base: dict[str, object] = {
+            "severity": d.severity, "on_delay_s": d.on_delay_s, "off_delay_s": d.off_delay_s,
+            "latch": d.latch, "shelvable": d.shelvable,
+        }
+        base.update(settings)
+        if "deadband" not in settings:
+            limit = settings.get("limit", math.nan)
+            base["deadband"] = d.deadband * abs(float(limit)) if kind == "rate" else d.deadband  # type: ignore[arg-type]
+        return cls(name, kind, tuple(channels), **base)  # type: ignore[arg-type]
+
+    @classmethod
+    def from_config(cls, a: AlarmConfig) -> Rule:
+        """The rule an ``[[alarm]]`` of a validated station file describes (defaults already filled in)."""
+        p = a.params
+        d = KIND_DEFAULTS[a.kind]
+        kw: dict[str, object] = {
+            "severity": a.severity,
+            "on_delay_s": float(p.get("on_delay_s", d.on_delay_s)),
+            "off_delay_s": float(p.get("off_delay_s", d.off_delay_s)),
+            "latch": bool(p.get("latch", d.latch)),
+            "shelvable": bool(p.get("shelvable", d.shelvable)),
+            "in_service": bool(p.get("in_service", True)),
+        }
+        if d.limit_key is not None:
+            kw["limit"] = float(p[d.limit_key])
+            db_key = "deadband_k_per_min" if a.kind == "rate" else "deadband_k"
+            kw["deadband"] = float(p.get(db_key, d.deadband * abs(kw["limit"]) if a.kind == "rate" else d.deadband))  # type: ignore[arg-type]
+        for src, dst in (("window_s", "window_s"), ("max_age_s", "max_age_s"), ("stale_after_s", "stale_after_s")):
+            if src in p:
+                kw[dst] = float(p[src])
+        if "direction" in p:
+            kw["direction"] = p["direction"]
+        if "setpoint_c" in p:
+            kw["setpoint_c"] = float(p["setpoint_c"])
+        if "reference" in p:
+            kw["reference"] = str(p["reference"])
+        if "statuses" in p:
+            kw["statuses"] = frozenset(p["statuses"])
+        if "instruments" in p:
+            kw["instruments"] = tuple(p["instruments"])
+        return cls(a.name, a.kind, tuple(a.channels), **kw)  # type: ignore[arg-type]
+
+    @property
+    def per_channel(self) -> bool:
+        return self.kind not in ("spread", "instrument_lost")
+
+    def test(self, value: float, active: bool) -> bool:
+        """The rule's test on a value, with the deadband on the way back (``active``: the delayed condition)."""
+        lim, db = self.limit, self.deadband
+        k = self.kind
+        if k in ("high", "high_high", "deviation", "spread"):
+            return value >= lim - db if active else value > lim
+        if k in ("low", "low_low"):
+            return value <= lim + db if active else value < lim
+        if k == "rate":
+            if self.direction == "rise":
+                v = value
+            elif self.direction == "fall":
+                v = -value
+            else:
+                v = abs(value)
+            return v >= lim - db if active else v > lim
+        raise ValueError(f"the {k} rule does not test values")
+
+
+@dataclass(frozen=True)
+class AlarmState:
+    """Where one alarm point stands.
+
+    Attributes:
+        id: ``rule:channel``, ``rule:instrument``, or the rule's name for a group rule.
+        source: the channel, instrument or group the point watches.
+        channel: the channel, or None (group and instrument alarms).
+        condition: the delayed condition (what the state machine follows).
+        raw: the tested condition before the delays; ``raw_since_s`` when it last changed.
+        acked: whether the present annunciation has been acknowledged.
+        since_s: when the state last changed (None: never).
+        value: the last evaluated quantity (°C, K, K/min, or seconds for stale).
+    """
+
+    id: str
+    rule: str
+    kind: str
+    source: str
+    channel: str | None
+    severity: str
+    state: State = "normal"
+    condition: bool = False
+    raw: bool = False
+    raw_since_s: float | None = None
+    acked: bool = True
+    since_s: float | None = None
+    shelved_until_s: float | None = None
+    value: float | None = None
+    message: str = ""
+
+    @property
+    def active(self) -> bool:
+        return self.state in ACTIVE_STATES
+
+
+Trigger = Literal["raised", "cleared", "acknowledged"]
+
+
+@dataclass(frozen=True)
+class AlarmEvent:
+    """A state change of one alarm (or an operator's note on it).
+
+    ``kind`` is the event kind stored in ``events``: alarm_raised,
+    alarm_cleared, alarm_acknowledged, alarm_shelved, alarm_unshelved,
+    alarm_out_of_service, alarm_in_service, alarm_note. ``trigger`` says which
+    configured actions it fires (None: none).
+    """
+
+    kind: str
+    alarm: str
+    rule: str
+    source: str
+    channel: str | None
+    t_s: float
+    before: str
+    after: str
+    severity: str
+    message: str
+    value: float | None = None
+    trigger: Trigger | None = None
+    note: str = ""
+    actor: str = ""
+
+    def fields(self) -> dict[str, str]:
+        """The event as text fields (for an action program's environment and the event's data)."""
+        return {
+            "event": self.kind, "alarm": self.alarm, "rule": self.rule, "source": self.source,
+            "channel": self.channel or "", "t_s": f"{self.t_s:.3f}", "state_before": self.before,
+            "state": self.after, "severity": self.severity, "message": self.message,
+            "value": "" if self.value is None or not math.isfinite(self.value) else f"{self.value:.6g}",
+            "note": self.note, "actor": self.actor,
+        }
+
+
+@dataclass(frozen=True)
+class OperatorResult:
+    """What an operator's request did: the events, a one-line outcome, and whether it matched anything."""
+
+    events: tuple[AlarmEvent, ...]
+    outcome: str
+    matched: bool = True
+
+
+# ---------------------------------------------------------------- the state machine of one point
+
+
+def _event(p: AlarmState, kind: str, t_s: float, before: str, message: str, *, severity: str = "info",
+           trigger: Trigger | None = None, note: str = "", actor: str = "") -> AlarmEvent:
+    return AlarmEvent(kind, p.id, p.rule, p.source, p.channel, t_s, before, p.state, severity, message,
+                      p.value, trigger, note, actor)
+
+
+def _describe(rule: Rule, p: AlarmState, value: float | None, active: bool) -> str:
+    """A one-line message of what the rule saw."""
+    src = p.source
+    v = value
+    u = KIND_DEFAULTS[rule.kind].unit
+    k = rule.kind
+    if k in ("high", "high_high", "low", "low_low"):
+        word = {"high": "high", "high_high": "high-high", "low": "low", "low_low": "low-low"}[k]
+        above = k.startswith("high")
+        if active:
+            return f"{src} {v:.2f} °C {'above' if above else 'below'} the {word} limit {rule.limit:.2f} °C"
+        back = rule.limit - rule.deadband if above else rule.limit + rule.deadband
+        return f"{src} {v:.2f} °C, back {'below' if above else 'above'} {back:.2f} °C (limit {rule.limit:.2f} °C, deadband {rule.deadband:g} K)"
+    if k == "rate":
+        if active:
+            return f"{src} changing {v:+.2f} K/min, beyond ±{rule.limit:g} K/min ({rule.direction}, over {rule.window_s:g} s)"
+        return f"{src} changing {v:+.2f} K/min, back within {rule.limit - rule.deadband:g} K/min"
+    if k == "deviation":
+        ref = f"set point {rule.setpoint_c:g} °C" if rule.reference is None else rule.reference
+        if active:
+            return f"{src} {v:.2f} K from {ref}, more than {rule.limit:g} K"
+        return f"{src} {v:.2f} K from {ref}, back within {rule.limit - rule.deadband:g} K"
+    if k == "spread":
+        if active:
+            return f"spread of {src} {v:.2f} K, more than {rule.limit:g} K"
+        return f"spread of {src} {v:.2f} K, back within {rule.limit - rule.deadband:g} K"
+    if k == "sensor_fault":
+        return f"{src}: sensor fault" if active else f"{src}: sensor reads again"
+    if k == "stale":
+        return (f"{src}: no good reading for {v:.0f} s (limit {rule.stale_after_s:g} s)" if active
+                else f"{src}: good readings again")
+    if k == "instrument_lost":
+        return f"instrument {src} lost" if active else f"instrument {src} back"
+    return f"{src} {v} {u}"
+
+
+def _on_condition(p: AlarmState, rule: Rule, active: bool, t_s: float, message: str) -> tuple[AlarmState, list[AlarmEvent]]:
+    """The state machine's answer to a change of the delayed condition."""
+    p = replace(p, condition=active, message=message)
+    s = p.state
+    if s in ("shelved", "out_of_service"):
+        return p, []  # suppressed: the condition is followed, nothing is annunciated
+    if active:
+        if s in ("normal", "returned_unacknowledged", "latched"):
+            p = replace(p, state="unacknowledged", acked=False, since_s=t_s)
+            return p, [_event(p, "alarm_raised", t_s, s, message, severity=rule.severity, trigger="raised")]
+        return p, []
+    if s == "unacknowledged":
+        new: State = "latched" if rule.latch else "returned_unacknowledged"
+        p = replace(p, state=new, since_s=t_s)
+        text = message + ("; latched until reset" if rule.latch else "; not yet acknowledged")
+        return p, [_event(p, "alarm_cleared", t_s, s, text, trigger="cleared")]
+    if s == "acknowledged":
+        new = "latched" if rule.latch else "normal"
+        p = replace(p, state=new, since_s=t_s)
+        text = message + ("; latched until reset" if rule.latch else "")
+        return p, [_event(p, "alarm_cleared", t_s, s, text, trigger="cleared")]
+    return p, []
+
+
+def evaluate(p: AlarmState, rule: Rule, raw: bool | None, t_s: float,
+             value: float | None = None) -> tuple[AlarmState, list[AlarmEvent]]:
+    """One evaluation of a point: the tested condition ``raw`` at ``t_s`` through the delays and the states.
+
+    ``raw`` None means the point cannot be evaluated now (no good value): nothing changes.
+    """
+    if raw is None:
+        return p, []
+    if value is not None:
+        p = replace(p, value=value)
+    if raw != p.raw or p.raw_since_s is None:
+        p = replace(p, raw=raw, raw_since_s=t_s)
+    held = t_s - (p.raw_since_s if p.raw_since_s is not None else t_s)
+    if raw and not p.condition and held >= rule.on_delay_s:
+        return _on_condition(p, rule, True, t_s, _describe(rule, p, p.value, True))
+    if not raw and p.condition and held >= rule.off_delay_s:
+        return _on_condition(p, rule, False, t_s, _describe(rule, p, p.value, False))
+    return p, []
+
+
+def acknowledge(p: AlarmState, rule: Rule, now_s: float, *, note: str = "", actor: str = "") -> tuple[AlarmState, list[AlarmEvent]]:
+    """Acknowledge (or reset, when latched) one alarm; never clears an active condition."""
+    s = p.state
+    extra = f": {note}" if note else ""
+    if s == "unacknowledged":
+        p = replace(p, state="acknowledged", acked=True, since_s=now_s)
+        return p, [_event(p, "alarm_acknowledged", now_s, s, f"{p.id} acknowledged{extra}", note=note, actor=actor,
+                          trigger="acknowledged")]
+    if s in ("returned_unacknowledged", "latched"):
+        if p.condition:  # cannot happen through the state machine; kept safe
+            p = replace(p, state="acknowledged", acked=True, since_s=now_s)
+        else:
+            p = replace(p, state="normal", acked=True, since_s=now_s)
+        what = "reset" if s == "latched" else "acknowledged"
+        return p, [_event(p, "alarm_acknowledged", now_s, s, f"{p.id} {what}{extra}", note=note, actor=actor,
+                          trigger="acknowledged")]
+    return p, []
+
+
+def shelve(p: AlarmState, rule: Rule, now_s: float, until_s: float, *, note: str = "",
+           actor: str = "") -> tuple[AlarmState, list[AlarmEvent], str | None]:
+    """Shelve one alarm until ``until_s``; returns (state, events, why refused or None)."""
+    if not rule.shelvable:
+        return p, [], f"{p.id} may not be shelved (a {rule.kind} alarm)"
+    if p.state == "out_of_service":
+        return p, [], f"{p.id} is out of service"
+    if p.state == "shelved":
+        return p, [], f"{p.id} is already shelved; unshelve it first to shelve it anew"
+    if not until_s > now_s:
+        return p, [], f"{p.id}: a shelf must end in the future"
+    if until_s - now_s > MAX_SHELVE_S:
+        return p, [], f"{p.id}: at most {MAX_SHELVE_S / 3600:g} h of shelving"
+    s = p.state
+    p = replace(p, state="shelved", shelved_until_s=until_s, since_s=now_s)
+    extra = f": {note}" if note else ""
+    return p, [_event(p, "alarm_shelved", now_s, s, f"{p.id} shelved for {until_s - now_s:.0f} s{extra}",
+                      note=note, actor=actor)], None
+
+
+def _back(p: AlarmState, now_s: float) -> AlarmState:
+    if p.condition:
+        return replace(p, state="unacknowledged", acked=False, since_s=now_s, shelved_until_s=None)
+    return replace(p, state="normal", acked=True, since_s=now_s, shelved_until_s=None)
+
+
+def unshelve(p: AlarmState, rule: Rule, now_s: float, *, note: str = "", actor: str = "",
+             expired: bool = False) -> tuple[AlarmState, list[AlarmEvent]]:
+    """End a shelf (on request or at its expiry): the alarm comes back in its condition's state."""
+    if p.state != "shelved":
+        return p, []
+    s = p.state
+    p = _back(p, now_s)
+    why = "shelf expired" if expired else "unshelved"
+    extra = f": {note}" if note else ""
+    sev = rule.severity if p.state == "unacknowledged" else "info"
+    return p, [_event(p, "alarm_unshelved", now_s, s, f"{p.id} {why}, {p.state.replace('_', ' ')}{extra}",
+                      severity=sev, note=note, actor=actor,
+                      trigger="raised" if p.state == "unacknowledged" else None)]
+
+
+def remove_from_service(p: AlarmState, rule: Rule, now_s: float, *, note: str = "",
+                        actor: str = "") -> tuple[AlarmState, list[AlarmEvent]]:
+    """Take an alarm out of service (maintenance): nothing is annunciated until it returns."""
+    if p.state == "out_of_service":
+        return p, []
+    s = p.state
+    p = replace(p, state="out_of_service", shelved_until_s=None, since_s=now_s)
+    extra = f": {note}" if note else ""
+    return p, [_event(p, "alarm_out_of_service", now_s, s, f"{p.id} out of service{extra}", note=note, actor=actor)]
+
+
+def return_to_service(p: AlarmState, rule: Rule, now_s: float, *, note: str = "",
+                      actor: str = "") -> tuple[AlarmState, list[AlarmEvent]]:
+    """Put an alarm back in service, in its condition's state."""
+    if p.state != "out_of_service":
+        return p, []
+    s = p.state
+    p = _back(p, now_s)
+    extra = f": {note}" if note else ""
+    sev = rule.severity if p.state == "unacknowledged" else "info"
+    return p, [_event(p, "alarm_in_service", now_s, s, f"{p.id} back in service, {p.state.replace('_', ' ')}{extra}",
+                      severity=sev, note=note, actor=actor,
+                      trigger="raised" if p.state == "unacknowledged" else None)]
+
+
+# ---------------------------------------------------------------- the engine
+
+
+@dataclass
+class _Memory:
+    """What the engine remembers of the signals (not of the alarms)."""
+
+    last: dict[str, tuple[float, float]] = field(default_factory=dict)  # channel -> newest good (t, °C)
+    last_good_t: dict[str, float] = field(default_factory=dict)
+    windows: dict[str, deque[tuple[float, float]]] = field(default_factory=dict)
+    started_s: float | None = None
+
+
+def _slope_k_per_min(points: Iterable[tuple[float, float]]) -> float:
+    """Least-squares slope of (t s, °C) points, in K/min."""
+    pts = list(points)
+    n = len(pts)
+    t0 = pts[0][0]
+    mt = sum(t - t0 for t, _ in pts) / n
+    mv = sum(v for _, v in pts) / n
+    sxx = sum((t - t0 - mt) ** 2 for t, _ in pts)
+    if sxx <= 0:
+        return math.nan
+    sxy = sum((t - t0 - mt) * (v - mv) for t, v in pts)
+    return 60.0 * sxy / sxx
+
+
+class AlarmEngine:
+    """Every alarm point of a station: ``step`` with samples and the time, operators' requests by function.
+
+    Args:
+        rules: the rules.
+        channels: every channel name ("*" in a rule means all of them).
+        instruments: every instrument name (an ``instrument_lost`` rule with
+            none named watches them all).
+        restore: states saved by an earlier run of the same station (a
+            restarted service continues, latched and shelved alarms included).
+    """
+
+    def __init__(self, rules: Sequence[Rule], channels: Sequence[str] = (), instruments: Sequence[str] = (),
+                 *, restore: Iterable[AlarmState] = ()) -> None:
+        self._rules: dict[str, Rule] = {}
+        self._points: dict[str, AlarmState] = {}
+        self._point_rule: dict[str, Rule] = {}
+        self._by_channel: dict[str, list[str]] = {}
+        self._groups: list[tuple[Rule, str]] = []
+        self._timed: list[tuple[Rule, str]] = []
+        self._rate_windows: dict[str, float] = {}
+        self._mem = _Memory()
+        self._dirty: set[str] = set()
+        names = tuple(channels)
+        for r in rules:
+            chans = names if "*" in r.channels else tuple(dict.fromkeys(r.channels))
+            r = replace(r, channels=chans)
+            if r.kind == "instrument_lost" and not r.instruments:
+                r = replace(r, instruments=tuple(instruments))
+            if r.name in self._rules:
+                raise ValueError(f"two alarm rules are named {r.name!r}")
+            self._rules[r.name] = r
+            if r.per_channel:
+                for c in r.channels:
+                    self._add(r, f"{r.name}:{c}", c, c)
+                    if r.kind != "stale":
+                        self._by_channel.setdefault(c, []).append(f"{r.name}:{c}")
+                    if r.kind == "rate":
+                        self._rate_windows[c] = max(self._rate_windows.get(c, 0.0), r.window_s)
+                    if r.kind == "deviation" and r.reference is not None:
+                        self._by_channel.setdefault(r.reference, [])
+                    if r.kind == "stale":
+                        self._timed.append((r, f"{r.name}:{c}"))
+            elif r.kind == "spread":
+                label = "+".join(r.channels)
+                self._add(r, r.name, label, None)
+                self._groups.append((r, r.name))
+            else:
+                for inst in r.instruments:
+                    self._add(r, f"{r.name}:{inst}", inst, None)
+                    self._timed.append((r, f"{r.name}:{inst}"))
+        for saved in restore:
+            mine = self._points.get(saved.id)
+            if mine is not None and saved.rule == mine.rule:
+                self._points[saved.id] = replace(mine, state=saved.state, condition=saved.condition,
+                                                 raw=saved.condition, raw_since_s=None, acked=saved.acked,
+                                                 since_s=saved.since_s, shelved_until_s=saved.shelved_until_s,
+                                                 value=saved.value, message=saved.message)
+
+    def _add(self, rule: Rule, pid: str, source: str, channel: str | None) -> None:
+        state: State = "normal" if rule.in_service else "out_of_service"
+        self._points[pid] = AlarmState(pid, rule.name, rule.kind, source, channel, rule.severity, state=state)
+        self._point_rule[pid] = rule
+        self._dirty.add(pid)
+
+    @classmethod
+    def from_config(cls, cfg: StationConfig, *, restore: Iterable[AlarmState] = ()) -> AlarmEngine:
+        """The engine a station file describes."""
+        return cls([Rule.from_config(a) for a in cfg.alarms], [c.name for c in cfg.channels],
+                   [i.name for i in cfg.instruments], restore=restore)
+
+    # ------------------------------------------------------------ reading
+
+    @property
+    def rules(self) -> dict[str, Rule]:
+        return dict(self._rules)
+
+    def alarms(self) -> list[AlarmState]:
+        """Every alarm point, in the order the rules define them."""
+        return list(self._points.values())
+
+    def get(self, alarm_id: str) -> AlarmState:
+        return self._points[alarm_id]
+
+    def rule_of(self, alarm_id: str) -> Rule:
+        return self._point_rule[alarm_id]
+
+    def changed(self) -> list[AlarmState]:
+        """The points that changed since the last call (for a store to save), in definition order."""
+        out = [p for pid, p in self._points.items() if pid in self._dirty]
+        self._dirty.clear()
+        return out
+
+    # ------------------------------------------------------------ samples and time
+
+    def _apply(self, pid: str, raw: bool | None, t_s: float, value: float | None, out: list[AlarmEvent]) -> None:
+        before = self._points[pid]
+        after, events = evaluate(before, self._point_rule[pid], raw, t_s, value)
+        if after is not before:
+            self._points[pid] = after
+            if after.state != before.state or after.condition != before.condition or after.acked != before.acked:
+                self._dirty.add(pid)
+        out.extend(events)
+
+    def step(self, samples: Iterable[Sample], now_s: float,
+             connected: Mapping[str, bool] | None = None) -> list[AlarmEvent]:
+        """Take a batch of samples (any order) and the time now; the events, in time order.
+
+        ``connected`` gives each instrument's link state as last seen (for
+        ``instrument_lost`` rules); instruments left out keep their state.
+        """
+        mem = self._mem
+        if mem.started_s is None:
+            mem.started_s = now_s
+        out: list[AlarmEvent] = []
+        batch = sorted(samples, key=lambda s: s.t_s)
+        i = 0
+        while i < len(batch):
+            t = batch[i].t_s
+            j = i
+            while j < len(batch) and batch[j].t_s == t:
+                j += 1
+            same_time = batch[i:j]
+            i = j
+            # every channel's value at t first, so a group or a reference sees the whole scan
+            for s in same_time:
+                good = s.status == "ok" and math.isfinite(s.temperature_c)
+                if good:
+                    mem.last[s.channel] = (t, s.temperature_c)
+                    mem.last_good_t[s.channel] = t
+                    w = self._rate_windows.get(s.channel)
+                    if w is not None:
+                        dq = mem.windows.setdefault(s.channel, deque())
+                        dq.append((t, s.temperature_c))
+                        while dq and dq[0][0] < t - w:
+                            dq.popleft()
+            touched: set[str] = set()
+            for s in same_time:
+                touched.add(s.channel)
+                for pid in self._by_channel.get(s.channel, ()):
+                    self._evaluate_channel_point(pid, s, out)
+            for rule, pid in self._groups:
+                if touched.intersection(rule.channels):
+                    self._evaluate_group(rule, pid, t, out)
+        self._tick(now_s, connected or {}, out)
+        out.sort(key=lambda e: e.t_s)
+        return out
+
+    def _evaluate_channel_point(self, pid: str, s: Sample, out: list[AlarmEvent]) -> None:
+        rule = self._point_rule[pid]
+        k = rule.kind
+        t = s.t_s
+        if k == "sensor_fault":
+            self._apply(pid, s.status in rule.statuses, t, None, out)
+            return
+        good = s.status == "ok" and math.isfinite(s.temperature_c)
+        if not good:
+            return
+        p = self._points[pid]
+        if k in ("high", "high_high", "low", "low_low"):
+            v = s.temperature_c
+        elif k == "rate":
+            dq = self._mem.windows.get(s.channel, deque())
+            pts = [x for x in dq if x[0] >= t - rule.window_s]
+            # a slope needs three points spread over at least half the window
+            if len(pts) < 3 or pts[-1][0] - pts[0][0] < rule.window_s / 2:
+                return
+            v = _slope_k_per_min(pts)
+            if not math.isfinite(v):
+                return
+        elif k == "deviation":
+            if rule.reference is not None:
+                ref = self._mem.last.get(rule.reference)
+                if ref is None or t - ref[0] > rule.max_age_s:
+                    return
+                v = abs(s.temperature_c - ref[1])
+            else:
+                v = abs(s.temperature_c - (rule.setpoint_c if rule.setpoint_c is not None else math.nan))
+                if not math.isfinite(v):
+                    return
+        else:
+            return
+        self._apply(pid, rule.test(v, p.condition), t, v, out)
+
+    def _evaluate_group(self, rule: Rule, pid: str, t: float, out: list[AlarmEvent]) -> None:
+        vals = [v for c in rule.channels if (x := self._mem.last.get(c)) is not None and t - x[0] <= rule.max_age_s
+                for v in (x[1],)]
+        if len(vals) < 2:
+            return
+        spread = max(vals) - min(vals)
+        self._apply(pid, rule.test(spread, self._points[pid].condition), t, spread, out)
+
+    def _tick(self, now_s: float, connected: Mapping[str, bool], out: list[AlarmEvent]) -> None:
+        mem = self._mem
+        for rule, pid in self._timed:
+            p = self._points[pid]
+            if rule.kind == "stale":
+                last = mem.last_good_t.get(p.source, mem.started_s if mem.started_s is not None else now_s)
+                age = max(0.0, now_s - last)
+                self._apply(pid, age > rule.stale_after_s, now_s, age, out)
+            elif rule.kind == "instrument_lost" and p.source in connected:
+                self._apply(pid, not connected[p.source], now_s, None, out)
+        for pid, p in list(self._points.items()):
+            if p.state == "shelved" and p.shelved_until_s is not None and now_s >= p.shelved_until_s:
+                new, events = unshelve(p, self._point_rule[pid], now_s, expired=True)
+                self._points[pid] = new
+                self._dirty.add(pid)
+                out.extend(events)
+
+    # ------------------------------------------------------------ operators
+
+    def match(self, target: str) -> list[str]:
+        """Alarm ids a target names: ``*`` (or empty) for all, an alarm id, or a rule name (all its points)."""
+        t = target.strip()
+        if t in ("", "*"):
+            return list(self._points)
+        if t in self._points:
+            return [t]
+        if t in self._rules:
+            return [pid for pid, p in self._points.items() if p.rule == t]
+        return []
+
+    def _unknown(self, target: str) -> OperatorResult:
+        known = ", ".join(list(self._points)[:8]) + (" …" if len(self._points) > 8 else "")
+        return OperatorResult((), f"no alarm {target!r}; known: {known or 'none'}", matched=False)
+
+    def _each(self, target: str, fn: Callable[[AlarmState, Rule], tuple[AlarmState, list[AlarmEvent]]],
+              verb: str, nothing: str) -> OperatorResult:
+        ids = self.match(target)
+        if not ids:
+            return self._unknown(target)
+        events: list[AlarmEvent] = []
+        done: list[str] = []
+        for pid in ids:
+            p = self._points[pid]
+            new, evs = fn(p, self._point_rule[pid])
+            if evs:
+                self._points[pid] = new
+                self._dirty.add(pid)
+                events.extend(evs)
+                done.append(f"{pid} ({p.state.replace('_', ' ')} → {new.state.replace('_', ' ')})")
+        if not done:
+            return OperatorResult((), nothing)
+        return OperatorResult(tuple(events), f"{verb} {len(done)}: " + ", ".join(done))
+
+    def acknowledge(self, target: str, now_s: float, *, note: str = "", actor: str = "") -> OperatorResult:
+        """Acknowledge every alarm ``target`` names that waits for it (latched ones are reset)."""
+        return self._each(target, lambda p, r: acknowledge(p, r, now_s, note=note, actor=actor),
+                          "acknowledged", f"nothing to acknowledge in {target or '*'}")
+
+    def shelve(self, target: str, now_s: float, until_s: float, *, note: str = "", actor: str = "") -> OperatorResult:
+        """Shelve every alarm ``target`` names until ``until_s``; refusals are named in the outcome."""
+        ids = self.match(target)
+        if not ids:
+            return self._unknown(target)
+        events: list[AlarmEvent] = []
+        done: list[str] = []
+        refused: list[str] = []
+        for pid in ids:
+            new, evs, why = shelve(self._points[pid], self._point_rule[pid], now_s, until_s, note=note, actor=actor)
+            if why:
+                refused.append(why)
+            elif evs:
+                self._points[pid] = new
+                self._dirty.add(pid)
+                events.extend(evs)
+                done.append(pid)
+        parts = []
+        if done:
+            parts.append(f"shelved {len(done)} until t = {until_s:.0f} s: " + ", ".join(done))
+        if refused:
+            parts.append("refused: " + "; ".join(refused))
+        return OperatorResult(tuple(events), "; ".join(parts) or "nothing shelved")
+
+    def unshelve(self, target: str, now_s: float, *, note: str = "", actor: str = "") -> OperatorResult:
+        return self._each(target, lambda p, r: unshelve(p, r, now_s, note=note, actor=actor),
+                          "unshelved", f"nothing shelved in {target or '*'}")
+
+    def remove_from_service(self, target: str, now_s: float, *, note: str = "", actor: str = "") -> OperatorResult:
+        return self._each(target, lambda p, r: remove_from_service(p, r, now_s, note=note, actor=actor),
+                          "out of service", "already out of service")
+
+    def return_to_service(self, target: str, now_s: float, *, note: str = "", actor: str = "") -> OperatorResult:
+        return self._each(target, lambda p, r: return_to_service(p, r, now_s, note=note, actor=actor),
+                          "back in service", "nothing out of service")
+
+    def note(self, target: str, now_s: float, text: str, *, actor: str = "") -> OperatorResult:
+        """An operator's note on an alarm (or on the run, with an empty target): an event, no state change."""
+        if target.strip() in ("", "*"):
+            e = AlarmEvent("alarm_note", "", "", "", None, now_s, "", "", "info", f"note: {text}", note=text, actor=actor)
+            return OperatorResult((e,), "noted")
+        ids = self.match(target)
+        if not ids:
+            return self._unknown(target)
+        events = []
+        for pid in ids:
+            p = self._points[pid]
+            events.append(_event(p, "alarm_note", now_s, p.state, f"note on {pid}: {text}", note=text, actor=actor))
+        return OperatorResult(tuple(events), f"noted on {len(ids)}: " + ", ".join(ids))
+
+    def apply(self, kind: str, target: str, now_s: float, *, note: str = "", actor: str = "",
+              duration_s: float | None = None) -> OperatorResult:
+        """An operator's request by name: acknowledge, shelve (for ``duration_s``), unshelve, note,
+        out_of_service, in_service."""
+        k = kind.strip().lower()
+        if k in ("acknowledge", "ack"):
+            return self.acknowledge(target, now_s, note=note, actor=actor)
+        if k == "shelve":
+            if duration_s is None or not duration_s > 0:
+                return OperatorResult((), "refused: a shelf needs a duration", matched=False)
+            return self.shelve(target, now_s, now_s + duration_s, note=note, actor=actor)
+        if k == "unshelve":
+            return self.unshelve(target, now_s, note=note, actor=actor)
+        if k == "note":
+            return self.note(target, now_s, note, actor=actor)
+        if k == "out_of_service":
+            return self.remove_from_service(target, now_s, note=note, actor=actor)
+        if k == "in_service":
+            return self.return_to_service(target, now_s, note=note, actor=actor)
+        return OperatorResult((), f"refused: unknown request {kind!r}; known: acknowledge, shelve, unshelve, note, "
+                                  "out_of_service, in_service", matched=False)
