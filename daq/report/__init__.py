@@ -1,0 +1,17 @@
+"""The run report: profile conformance, chamber performance, alarms, plots (`soaklog report`)."""
+
+from __future__ import annotations
+
+from daq.report.build import ReportResult, load_profile_file, make_report
+from daq.report.profile import Band, CycleProfile, Profile, SoakProfile, parse_profile
+
+__all__ = [
+    "Band",
+    "CycleProfile",
+    "Profile",
+    "ReportResult",
+    "SoakProfile",
+    "load_profile_file",
+    "make_report",
+    "parse_profile",
+]
