@@ -625,6 +625,9 @@ def build_parser() -> argparse.ArgumentParser:
     _add_status(sub)
     _add_convert(sub)
     _add_export(sub)
+    from daq.report.cli import add_parser as _add_report
+
+    _add_report(sub)
     _add_simulate(sub)
     _add_probe(sub)
     _add_bench(sub)
