@@ -46,6 +46,7 @@ __all__ = [
     "KIND_DEFAULTS",
     "FAULT_STATUSES",
     "MAX_SHELVE_S",
+    "BUILTIN_INSTRUMENT_LOST",
     "KindDefaults",
     "Sample",
     "Rule",
@@ -136,6 +137,8 @@ DEFAULT_RATE_WINDOW_S = 120.0
 DEFAULT_MAX_AGE_S = 60.0
 #: stale: no good reading for this long (at least three scans: see daq.config)
 DEFAULT_STALE_AFTER_S = 60.0
+#: the rule a station gets when its file has no instrument_lost rule
+BUILTIN_INSTRUMENT_LOST = "instrument-lost"
 
 
 # ---------------------------------------------------------------- records
@@ -609,10 +612,30 @@ class AlarmEngine:
         self._dirty.add(pid)
 
     @classmethod
-    def from_config(cls, cfg: StationConfig, *, restore: Iterable[AlarmState] = ()) -> AlarmEngine:
-        """The engine a station file describes."""
-        return cls([Rule.from_config(a) for a in cfg.alarms], [c.name for c in cfg.channels],
-                   [i.name for i in cfg.instruments], restore=restore)
+    def from_config(cls, cfg: StationConfig, *, restore: Iterable[AlarmState] = (),
+                    builtin: bool = True) -> AlarmEngine:
+        """The engine a station file describes.
+
+        With ``builtin``, a station whose file has no ``instrument_lost`` rule
+        gets one, ``BUILTIN_INSTRUMENT_LOST``, on every instrument: a lost
+        instrument always raises an alarm.
+        """
+        rules = [Rule.from_config(a) for a in cfg.alarms]
+        if builtin and not any(r.kind == "instrument_lost" for r in rules) \
+                and BUILTIN_INSTRUMENT_LOST not in {r.name for r in rules}:
+            rules.append(Rule.of_kind(BUILTIN_INSTRUMENT_LOST, "instrument_lost"))
+        return cls(rules, [c.name for c in cfg.channels], [i.name for i in cfg.instruments], restore=restore)
+
+    @property
+    def watched_channels(self) -> frozenset[str]:
+        """Channels whose samples some rule needs (the others need not be given to ``step``)."""
+        chans: set[str] = set(self._by_channel)
+        for r, _pid in self._groups:
+            chans.update(r.channels)
+        for r, _pid in self._timed:
+            if r.kind == "stale":
+                chans.update(r.channels)
+        return frozenset(chans)
 
     # ------------------------------------------------------------ reading
 

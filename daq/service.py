@@ -1,4 +1,4 @@
-"""The logger service: the imperative shell that wires drivers, pipeline, (alarms) and store.
+"""The logger service: the imperative shell that wires drivers, pipeline, alarms, actions and store.
 
 Threads:
 
@@ -7,7 +7,13 @@ Threads:
   delays only itself, and a scan that starts late is recorded;
 - one pipeline-and-writer thread: converts what the acquisition threads queue,
   commits at least once a second, records instrument loss and recovery, keeps
-  readings in a bounded buffer while the disk refuses them;
+  readings in a bounded buffer while the disk refuses them; it also runs the
+  alarm engine (a scan an alarm watches is converted and judged as soon as it
+  arrives, so an action starts within one scan of the reading that trips it),
+  applies the operators' requests from the store each commit interval, and
+  records alarm states, alarm events and the actions' outcomes;
+- one worker thread per configured action (``daq.actions``): nothing an
+  action does can block acquisition or the writer;
 - the caller's thread supervises (``run``): duration, signals, stop.
 
 Drivers are built by a factory so tests and the demo can pass their own.
@@ -28,16 +34,20 @@ from typing import Any
 import numpy as np
 
 from daq import __version__
+from daq.actions import ActionOutcome, ActionRunner
+from daq.alarms import AlarmEngine, AlarmEvent, AlarmState, Sample
 from daq.clock import ServiceClock, SystemClock
 from daq.config import InstrumentConfig, StationConfig
 from daq.errors import InstrumentError, StorageError
 from daq.pipeline import Pipeline
-from daq.store import SampleBatch, Store, iso_utc
+from daq.store import SampleBatch, Store, iso_utc, status_name
+from daq.store.alarms import AlarmRow, EventRow
 from drivers.base import Driver, RawReading
 
 __all__ = ["Service", "ServiceStats", "default_driver_factory", "MAX_BUFFERED_READINGS"]
 
 log = logging.getLogger("soaklog")
+alarm_log = logging.getLogger("soaklog.alarms")
 
 #: readings kept in memory while the disk refuses them (about 60 MB); beyond
 #: this the oldest are dropped and the drop is recorded as an event
@@ -45,6 +55,13 @@ MAX_BUFFERED_READINGS = 1_000_000
 
 #: a scan that starts this much later than its slot is recorded (fraction of the interval)
 LATE_FRACTION = 0.5
+
+#: an operator's request queued this long before the service started was made while no
+#: logger ran on the file: it is recorded as not applied rather than applied to new alarms
+STALE_REQUEST_S = 60.0
+
+#: alarm events kept in memory while the disk refuses them
+MAX_BUFFERED_EVENTS = 100_000
 
 DriverFactory = Callable[..., Driver]
 
@@ -121,6 +138,14 @@ class Service:
         self.pipeline: Pipeline | None = None
         self._started = False
         self._fatal: BaseException | None = None
+        self.alarms: AlarmEngine | None = None
+        self.actions: ActionRunner | None = None
+        self._ch_ids: dict[str, int] = {}
+        self._ch_names: dict[int, str] = {}
+        self._watched: frozenset[str] = frozenset()
+        self._events_out: list[EventRow] = []  # alarm and action events not yet stored (writer thread)
+        self._unsaved: dict[str, AlarmState] = {}  # alarm states not yet stored
+        self._status_names: dict[int, str] = {}
 
     # ------------------------------------------------------------ life cycle
 
@@ -139,6 +164,9 @@ class Service:
             info.run_id, [(c.name, c.label, c.instrument, "ohm") for c in cfg.channels]
         )
         self.pipeline = Pipeline(cfg, ids)
+        self._ch_ids = dict(ids)
+        self._ch_names = {v: k for k, v in ids.items()}
+        self._start_alarms(store, info.run_id, continued=info.continued, now_ms=now_ms)
         if info.continued:
             gap_from = info.last_t_ms
             msg = "logger restarted; run continues"
@@ -182,6 +210,8 @@ class Service:
             t.join(timeout=30)
         self._queue.put(None)
         self._writer.join(timeout=60)
+        if self.actions is not None:
+            self.actions.close()
         for d in self._drivers.values():
             try:
                 d.close()
@@ -189,6 +219,8 @@ class Service:
                 log.exception("closing %s", getattr(d, "name", "driver"))
         if self.store is not None and self.run_id is not None:
             now_ms = int(self.clock.utc_s() * 1000)
+            self._record_outcomes()
+            self._flush_alarms(self.store, self.run_id)
             try:
                 self.store.add_event(self.run_id, now_ms, "service_stop", "logger stopped",
                                      data={"readings": self.stats.readings, "stored": self.stats.stored})
@@ -271,6 +303,8 @@ class Service:
         pending: list[SampleBatch] = []  # converted, not yet stored (grows while the disk refuses)
         pending_n = 0
         connected: dict[str, bool | None] = {}
+        # instruments with a channel an alarm watches: their scans are judged on arrival
+        early = {c.instrument for c in self.config.channels if c.name in self._watched}
         last_commit = time.monotonic()
         last_health = 0.0
         storage_down = False
@@ -290,8 +324,17 @@ class Service:
                 self.stats.per_instrument[item.instrument] = (
                     self.stats.per_instrument.get(item.instrument, 0) + len(item.readings)
                 )
-                scans.setdefault(item.instrument, []).append(item.readings)
                 self._note_health(store, run_id, item, connected)
+                if item.instrument in early:
+                    batch = pipeline.convert(item.instrument, [item.readings])
+                    if len(batch):
+                        pending.append(batch)
+                        pending_n += len(batch)
+                        if self._on_batch is not None:
+                            self._on_batch(batch)
+                    self._judge(batch, connected)
+                else:
+                    scans.setdefault(item.instrument, []).append(item.readings)
                 if item.late_s > LATE_FRACTION * self.config.instrument(item.instrument).interval_s:
                     self.stats.late_scans += 1
                     self._event(store, run_id, "scan_late",
@@ -328,10 +371,130 @@ class Service:
                     if done:
                         log.error("stopping with %d readings that could not be stored", pending_n)
             self.stats.buffered = pending_n
+            self._alarm_interval(store, run_id, connected)
             last_commit = time.monotonic()
             if time.monotonic() - last_health >= 5.0 or done:
                 last_health = time.monotonic()
                 self._store_health(store, run_id)
+
+    # ------------------------------------------------------------ alarms
+
+    def _start_alarms(self, store: Store, run_id: int, *, continued: bool, now_ms: int) -> None:
+        """Build the engine (continuing a run's stored alarm states) and the action runner."""
+        cfg = self.config
+        restore = [_state_of(r, self._ch_names) for r in store.alarm_states(run_id)] if continued else []
+        self.alarms = AlarmEngine.from_config(cfg, restore=restore)
+        self._watched = self.alarms.watched_channels
+        self.actions = ActionRunner({a.name: a.actions for a in cfg.alarms}, station=cfg.station,
+                                    utc_s=self.clock.utc_s)
+        self._save_states(store, run_id, self.alarms.changed(), now_ms)
+        for req in store.pending_operator_actions():
+            if req["t_ms"] < now_ms - STALE_REQUEST_S * 1000:
+                store.mark_operator_action(
+                    req["id"], now_ms=now_ms,
+                    outcome=f"not applied: queued at {iso_utc(req['t_ms'])} while no logger was running on this file")
+
+    def _judge(self, batch: SampleBatch, connected: dict[str, bool | None]) -> None:
+        """Run the engine on a fresh batch; hand the events' actions over at once."""
+        engine = self.alarms
+        if engine is None:
+            return
+        samples = self._samples(batch) if len(batch) else []
+        events = engine.step(samples, self.clock.utc_s(), _links(connected))
+        self._on_alarm_events(events)
+
+    def _samples(self, batch: SampleBatch) -> list[Sample]:
+        names, watched, st_names = self._ch_names, self._watched, self._status_names
+        out: list[Sample] = []
+        for ch, t_ms, temp, st in zip(batch.ch.tolist(), batch.t_ms.tolist(), batch.temp_c.tolist(),
+                                      batch.status.tolist(), strict=True):
+            name = names.get(ch)
+            if name is None or name not in watched:
+                continue
+            sname = st_names.get(st)
+            if sname is None:
+                sname = st_names[st] = status_name(st)
+            out.append(Sample(name, t_ms / 1000.0, temp, sname))
+        return out
+
+    def _on_alarm_events(self, events: Sequence[AlarmEvent]) -> None:
+        runner = self.actions
+        for e in events:
+            fields = e.fields()
+            fields["t_utc"] = iso_utc(e.t_s * 1000.0) or ""
+            n = runner.submit_event(e.rule, e.trigger, fields) if runner is not None else 0
+            (alarm_log.warning if e.kind == "alarm_raised" else alarm_log.info)("alarm %s: %s", e.alarm or "-", e.message)
+            data: dict[str, Any] = {"alarm": e.alarm, "rule": e.rule, "source": e.source, "state_before": e.before,
+                                    "state": e.after, "value": e.value, "actions": n}
+            if e.note or e.actor:
+                data.update(note=e.note, actor=e.actor)
+            self._events_out.append(EventRow(
+                int(round(e.t_s * 1000.0)), e.kind, e.message, e.severity,
+                self._ch_ids.get(e.channel) if e.channel else None, data))
+
+    def _alarm_interval(self, store: Store, run_id: int, connected: dict[str, bool | None]) -> None:
+        """Each commit interval: time-driven alarms, operators' requests, actions' outcomes, then store them."""
+        engine = self.alarms
+        if engine is None:
+            return
+        now_s = self.clock.utc_s()
+        self._on_alarm_events(engine.step([], now_s, _links(connected)))
+        try:
+            requests = store.pending_operator_actions()
+        except StorageError:
+            requests = []
+        for req in requests:
+            duration = None
+            if req["until_ms"] is not None:
+                # the requested length, measured from the service's own clock (a viewer's clock may differ)
+                duration = (int(req["until_ms"]) - int(req["t_ms"])) / 1000.0
+            res = engine.apply(req["kind"], req["target"] or "*", now_s, note=req["note"] or "",
+                               actor=req["actor"] or "", duration_s=duration)
+            self._on_alarm_events(res.events)
+            outcome = ("applied: " if res.events else "not applied: ") + res.outcome
+            if not res.events:
+                who = f" by {req['actor']}" if req["actor"] else ""
+                self._events_out.append(EventRow(
+                    int(now_s * 1000), "operator_request", f"{req['kind']} {req['target'] or '*'}{who}: {res.outcome}",
+                    "info", None, {"request": req["id"]}))
+            try:
+                store.mark_operator_action(int(req["id"]), now_ms=int(now_s * 1000), outcome=outcome)
+            except StorageError as exc:
+                log.error("%s", exc)
+        self._record_outcomes()
+        self._flush_alarms(store, run_id)
+
+    def _record_outcomes(self) -> None:
+        if self.actions is None:
+            return
+        for o in self.actions.outcomes():
+            self._events_out.append(_outcome_event(o, self._ch_ids))
+
+    def _flush_alarms(self, store: Store, run_id: int) -> None:
+        """Store the waiting alarm events and changed states; keep them while the disk refuses."""
+        if self.alarms is not None:
+            for p in self.alarms.changed():
+                self._unsaved[p.id] = p
+        if self._events_out:
+            try:
+                store.add_events(run_id, self._events_out)
+                self._events_out = []
+            except StorageError as exc:
+                log.error("%s; alarm events kept in memory", exc)
+                del self._events_out[:-MAX_BUFFERED_EVENTS]
+        if self._unsaved:
+            now_ms = int(self.clock.utc_s() * 1000)
+            if self._save_states(store, run_id, list(self._unsaved.values()), now_ms):
+                self._unsaved = {}
+
+    def _save_states(self, store: Store, run_id: int, states: Sequence[AlarmState], now_ms: int) -> bool:
+        rows = [_row_of(p, self._ch_ids) for p in states]
+        try:
+            store.save_alarm_states(run_id, rows, now_ms=now_ms)
+        except StorageError as exc:
+            log.error("%s", exc)
+            return False
+        return True
 
     def _drop_oldest(self, pending: list[SampleBatch], n: int) -> tuple[list[SampleBatch], int]:
         dropped = 0
@@ -390,6 +553,48 @@ class Service:
 
 
 _NOTHING: Any = object()
+
+
+def _links(connected: dict[str, bool | None]) -> dict[str, bool]:
+    return {k: v for k, v in connected.items() if v is not None}
+
+
+def _ms(t_s: float | None) -> int | None:
+    return None if t_s is None else int(round(t_s * 1000.0))
+
+
+def _row_of(p: AlarmState, ch_ids: dict[str, int]) -> AlarmRow:
+    value = p.value if p.value is not None and np.isfinite(p.value) else None
+    return AlarmRow(p.id, p.rule, p.kind, p.source, ch_ids.get(p.channel) if p.channel else None, p.state,
+                    p.severity, p.condition, p.acked, _ms(p.since_s), _ms(p.shelved_until_s), value, p.message)
+
+
+def _state_of(r: AlarmRow, ch_names: dict[int, str]) -> AlarmState:
+    return AlarmState(
+        r.id, r.rule, r.kind, r.source, ch_names.get(r.ch) if r.ch is not None else None, r.severity,
+        state=r.state,  # type: ignore[arg-type]
+        condition=r.condition, raw=r.condition, acked=r.acked,
+        since_s=None if r.since_ms is None else r.since_ms / 1000.0,
+        shelved_until_s=None if r.shelved_until_ms is None else r.shelved_until_ms / 1000.0,
+        value=r.value, message=r.message,
+    )
+
+
+def _outcome_event(o: ActionOutcome, ch_ids: dict[str, int]) -> EventRow:
+    f = o.fields
+    data: dict[str, Any] = {
+        "action": o.action, "action_kind": o.kind, "outcome": o.outcome, "detail": o.detail,
+        "alarm": f.get("alarm", ""), "event": f.get("event", ""),
+        "started_utc": iso_utc(o.started_utc_s * 1000.0), "duration_s": round(o.duration_s, 4),
+    }
+    try:
+        # from the reading that changed the alarm's state to the action starting
+        data["latency_s"] = round(o.started_utc_s - float(f.get("t_s", "")), 4)
+    except ValueError:
+        pass
+    channel = f.get("channel") or None
+    return EventRow(int(round(o.ended_utc_s * 1000.0)), o.event_kind, o.message,
+                    "info" if o.outcome == "done" else "high", ch_ids.get(channel) if channel else None, data)
 
 
 def summarise_batch(batch: SampleBatch) -> dict[str, Any]:

@@ -1,8 +1,10 @@
-"""The simulated lab: one chamber world behind a SCPI multimeter and a serial RTD board.
+"""The simulated lab: one chamber world behind a SCPI multimeter and a serial RTD board, and its heater supply.
 
 ``soaklog simulate chamber`` and ``soaklog demo`` run this: both instruments
-measure the same chamber, as in a real lab, and one loopback control port
-takes faults for all three (``world …``, ``meter …``, ``board …``, or a bare
+measure the same chamber, as in a real lab; a programmable supply (SCPI on
+loopback TCP) feeds the chamber's heater, so an interlock action that switches
+it off really cools the chamber. One loopback control port takes faults for
+all of them (``world …``, ``meter …``, ``board …``, ``supply …``, or a bare
 world command such as ``fault runaway``).
 """
 
@@ -31,6 +33,7 @@ class LabAddresses:
     board_device: str | None
     board_link: str | None
     control: tuple[str, int] | None
+    supply_resource: str | None = None
 
     def as_dict(self) -> dict[str, object]:
         return {
@@ -38,6 +41,7 @@ class LabAddresses:
             "board_device": self.board_device,
             "board_link": self.board_link,
             "control": None if self.control is None else f"{self.control[0]}:{self.control[1]}",
+            "supply_resource": self.supply_resource,
         }
 
 
@@ -59,9 +63,12 @@ class Lab:
         truth_log_interval_s: float | None = None,
         board_rate_hz: float = 1.0,
         cycles: int = 1000,
+        supply: bool = True,
+        supply_port: int = 0,
     ) -> None:
         from simulators.adc import AdcBoardSimulator
         from simulators.dmm import DmmSimulator
+        from simulators.supply import SupplySimulator
 
         self.speed = speed
         self.world: ChamberWorld = demo_world(
@@ -75,6 +82,7 @@ class Lab:
                               seed=seed, link_path=board_link)
             if board else None
         )
+        self.supply = SupplySimulator(self.world, port=supply_port) if supply else None
         self._control_port = control_port
         self.control: ControlServer | None = None
         self.table = self._table()
@@ -87,6 +95,8 @@ class Lab:
             parts["meter"] = self.meter.commands()
         if self.board is not None:
             parts["board"] = self.board.commands()
+        if self.supply is not None:
+            parts["supply"] = self.supply.commands()
         for prefix, sub in parts.items():
             table.register(prefix, lambda args, sub=sub, prefix=prefix: _forward(sub, prefix, args))
         for name in world.names():
@@ -100,6 +110,8 @@ class Lab:
             self.meter.start()
         if self.board is not None:
             self.board.start()
+        if self.supply is not None:
+            self.supply.start()
         if self._control_port is not None:
             self.control = ControlServer(self.table, port=self._control_port).start()
         return self
@@ -110,6 +122,7 @@ class Lab:
             self.board.device_path if self.board is not None else None,
             self.board.link_path if self.board is not None else None,
             self.control.address if self.control is not None else None,
+            self.supply.resource if self.supply is not None else None,
         )
 
     def close(self) -> None:
@@ -120,6 +133,8 @@ class Lab:
             self.board.close()
         if self.meter is not None:
             self.meter.close()
+        if self.supply is not None:
+            self.supply.close()
         self.world.close()
 
     def __enter__(self) -> Lab:

@@ -34,6 +34,7 @@ import sqlite_utils
 
 from daq.errors import StorageError
 
+from daq.store.alarms import AlarmStoreMixin
 from daq.store.reader import ReadingMixin
 from daq.store.schema import MIGRATIONS, SCHEMA_VERSION, STATUS_CODES, statements
 from daq.store.writer import WritingMixin
@@ -44,7 +45,7 @@ __all__ = ["Store"]
 # ---------------------------------------------------------------- the store
 
 
-class Store(WritingMixin, ReadingMixin):
+class Store(AlarmStoreMixin, WritingMixin, ReadingMixin):
     """One station's SQLite file, for the service (writer) or a viewer (read-only).
 
     Not thread-safe: each thread opens its own ``Store``.

@@ -194,6 +194,29 @@ MIGRATIONS: list[tuple[int, str]] = [
             u_max = (SELECT MAX(r.u_max) FROM rollup_1m r WHERE r.ch = latest.ch);
         """,
     ),
+    (
+        4,
+        """
+        CREATE TABLE IF NOT EXISTS alarm_states (
+            run_id INTEGER NOT NULL,
+            id TEXT NOT NULL,
+            rule TEXT NOT NULL,
+            kind TEXT NOT NULL,
+            source TEXT NOT NULL DEFAULT '',
+            ch INTEGER,
+            state TEXT NOT NULL,
+            severity TEXT NOT NULL,
+            condition INTEGER NOT NULL DEFAULT 0,
+            acked INTEGER NOT NULL DEFAULT 1,
+            since_ms INTEGER,
+            shelved_until_ms INTEGER,
+            value REAL,
+            message TEXT NOT NULL DEFAULT '',
+            updated_ms INTEGER NOT NULL,
+            PRIMARY KEY (run_id, id)
+        );
+        """,
+    ),
 ]
 
 SCHEMA_VERSION = MIGRATIONS[-1][0]
