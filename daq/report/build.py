@@ -84,6 +84,7 @@ TABLE_COLUMNS: dict[str, tuple[str, ...]] = {
         "cycle", "level", "band", "window_start_utc", "entry_utc", "exit_utc", "in_tolerance_min",
         "required_min", "finished", "met", "least_channel", "least_min",
     ),
+    "dwell_channels": ("cycle", "level", "channel", "in_tolerance_min", "min_c", "max_c"),
     "ramps": (
         "cycle", "direction", "from_start", "from_c", "to_c", "start_utc", "end_utc", "rate_k_per_min",
         "slowest_channel", "slowest_k_per_min", "fastest_channel", "fastest_k_per_min",
@@ -394,6 +395,10 @@ def _conformance_tables(conf: Conformance) -> dict[str, list[dict[str, Any]]]:
             "least_channel": None if k is None else names[k],
             "least_min": None if k is None else _min(d.channel_in_tolerance_s[k]),
         })
+    dwell_channels = [{
+        "cycle": d.cycle, "level": d.level, "channel": name, "in_tolerance_min": _min(d.channel_in_tolerance_s[k]),
+        "min_c": _num(d.channel_min_c[k]), "max_c": _num(d.channel_max_c[k]),
+    } for d in conf.dwells for k, name in enumerate(names)]
     ramps = []
     for r in conf.ramps:
         rates = np.asarray(r.channel_rate_k_per_min, dtype=np.float64)
@@ -417,7 +422,8 @@ def _conformance_tables(conf: Conformance) -> dict[str, list[dict[str, Any]]]:
         "cycle": d.cycle, "phase": d.phase, "value": _num(d.value), "limit": _num(d.limit), "unit": d.unit,
         "resolution_s": _num(d.resolution_s, 3), "message": d.message,
     } for k, d in enumerate(conf.deviations)]
-    return {"cycles": cycles, "dwells": dwells, "ramps": ramps, "deviations": devs}
+    return {"cycles": cycles, "dwells": dwells, "dwell_channels": dwell_channels, "ramps": ramps,
+            "deviations": devs}
 
 
 def _performance(run: RunData, conf: Conformance, profile: Profile, chamber: Sequence[str]) -> list[Performance]:
@@ -610,7 +616,7 @@ def make_report(
         if conf is not None:
             tables.update(_conformance_tables(conf))
         else:
-            tables.update({"cycles": [], "dwells": [], "ramps": [], "deviations": []})
+            tables.update({"cycles": [], "dwells": [], "dwell_channels": [], "ramps": [], "deviations": []})
         tables.update(_performance_tables(perf))
         episodes = alarm_episodes(run.events)
         first_s = (run.first_ms or 0) / 1000.0

@@ -317,7 +317,18 @@ def _dwell_deviations(series: Series, inb: npt.NDArray[np.bool_], dwell: Dwell, 
             continue
         a, b = int(h[0]), int(h[-1]) + 1
         starts, ends = true_runs(~seg[a:b, c])
-        for s, e in zip(starts.tolist(), ends.tolist(), strict=True):
+        spans = [(a + s, a + e) for s, e in zip(starts.tolist(), ends.tolist(), strict=True)]
+        # after the last bucket wholly in the band the channel leaves for good (the ramp away), unless
+        # its mean comes back into the band first: then it left and returned, and that is an excursion
+        tail = series.mean[dwell.i_start + b:dwell.i_end, c]
+        with np.errstate(invalid="ignore"):
+            inside = (tail >= dwell.band.lo_c) & (tail <= dwell.band.hi_c)
+            outside = (tail < dwell.band.lo_c) | (tail > dwell.band.hi_c)
+        back = np.flatnonzero(inside)
+        if back.size and outside[: int(back[-1])].any():
+            spans.append((b, b + int(back[-1]) + 1))
+        for s0, e0 in spans:
+            s, e = s0 - a, e0 - a
             i0, i1 = dwell.i_start + a + s, dwell.i_start + a + e
             lo, hi = series.lo[i0:i1, c], series.hi[i0:i1, c]
             valid = np.isfinite(lo)

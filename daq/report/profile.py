@@ -250,7 +250,7 @@ def parse_profile(data: Mapping[str, Any], *, where: str = "profile") -> Profile
     if not isinstance(data, Mapping):
         raise InputError(f"the profile ({where}) must be a table of keys, got {type(data).__name__}")
     kind = data.get("kind")
-    if kind not in PROFILE_KEYS:
+    if not isinstance(kind, str) or kind not in PROFILE_KEYS:
         raise InputError(
             f"the profile ({where}) needs kind = \"soak\" or kind = \"cycle\", got {kind!r}"
         )

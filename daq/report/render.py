@@ -220,6 +220,10 @@ def render_html(summary: Mapping[str, Any], images: Mapping[str, bytes], columns
             parts.append(tab("cycles"))
         parts.append("<h3>Dwells" + (" and the soak" if v.get("kind") == "soak" else "") + "</h3>")
         parts.append(tab("dwells", bad="met"))
+        parts.append("<h3>Each sample channel in each dwell</h3>")
+        parts.append('<p class="note">Min and max while the channel was in its band (from its first to its last '
+                     "bucket within it).</p>")
+        parts.append(tab("dwell_channels"))
         parts.append("<h3>Ramps</h3>")
         parts.append(tab("ramps"))
 
