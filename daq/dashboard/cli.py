@@ -1,0 +1,50 @@
+"""`soaklog dash`: the parser and the command (the lead wires ``add_parser`` into daq/cli.py)."""
+
+from __future__ import annotations
+
+import argparse
+from typing import Any
+
+__all__ = ["DEFAULT_DB", "add_parser"]
+
+#: the file the demo writes when no --db is given (as the other station commands assume)
+DEFAULT_DB = "soaklog-demo.db"
+
+
+def add_parser(sub: Any) -> argparse.ArgumentParser:
+    """Add ``dash`` to an argparse subparsers action; the command returns an exit status."""
+    p: argparse.ArgumentParser = sub.add_parser(
+        "dash", help="the live dashboard of a station's file (keyboard first; ? lists the keys)",
+        description=(
+            "Show a station's run live in the terminal: every channel now, trends with the planned set "
+            "point and alarm limits, alarms to acknowledge, shelve or annotate, and the instruments. "
+            "Reads the file read-only (any number of dashboards can watch one file); a finished run's "
+            "file opens for review with no logger running. Press ? for the keys, q to quit. "
+            "Software alarms are not a safety device."
+        ),
+    )
+    p.add_argument("config", nargs="?", metavar="CONFIG", help="station file (its database is used)")
+    p.add_argument("--db", metavar="PATH", help=f"database file (default: {DEFAULT_DB}, as the demo writes it)")
+    p.add_argument("--run", type=int, metavar="ID", help="run id (default: the newest, following new runs)")
+    p.set_defaults(func=_cmd_dash)
+    return p
+
+
+def _db_path(args: argparse.Namespace) -> str:
+    from daq.errors import InputError
+
+    if args.db and args.config:
+        raise InputError("give a CONFIG or --db, not both")
+    if args.db:
+        return str(args.db)
+    if args.config:
+        from daq.config import load_config
+
+        return load_config(args.config).database
+    return DEFAULT_DB
+
+
+def _cmd_dash(args: argparse.Namespace) -> int:
+    from daq.dashboard.app import run_dashboard
+
+    return run_dashboard(_db_path(args), run_id=args.run)
