@@ -338,11 +338,26 @@ class ActionRunner:
         return True
 
     def close(self, timeout_s: float = 5.0) -> None:
-        """Let queued actions finish (up to ``timeout_s`` each), then close held ports."""
+        """Let running actions finish (each within its time limit), drop the waiting ones, close held ports.
+
+        A dropped request becomes a failed outcome ("not run"), so it is recorded too.
+        """
         with self._lock:
             self._closed = True
             workers = list(self._workers.values())
         for w in workers:
+            while True:
+                try:
+                    job = w.jobs.get_nowait()
+                except queue.Empty:
+                    break
+                if job is None:
+                    continue
+                now = self._utc_s()
+                self._outcomes.put(ActionOutcome(job.action.name, job.action.kind, "failed",
+                                                 "not run: the runner was closed first", job.fields, now, now))
+                with self._lock:
+                    self._pending -= 1
             try:
                 w.jobs.put(None, timeout=timeout_s)
             except queue.Full:

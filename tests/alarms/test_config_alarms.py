@@ -44,7 +44,8 @@ def test_durations_with_units_and_zero_delays():
                      'on_delay = "0s"\noff_delay = "2min"\ndeadband_k = 0.5\nlatch = true\n')
     assert (a.params["on_delay_s"], a.params["off_delay_s"], a.params["deadband_k"], a.params["latch"]) == (0.0, 120.0, 0.5, True)
     eng = AlarmEngine.from_config(parse_config(STATION + '[[alarm]]\nname = "hot"\nkind = "high"\nchannels = ["*"]\nlimit_c = 130.0\n', PATH))
-    assert [p.id for p in eng.alarms()] == ["hot:air", "hot:shelf"]
+    # and a lost instrument always raises an alarm: a station without an instrument_lost rule gets one
+    assert [p.id for p in eng.alarms()] == ["hot:air", "hot:shelf", "instrument-lost:meter"]
 
 
 def test_stale_defaults_to_three_scans_of_the_slowest_instrument_or_a_minute():

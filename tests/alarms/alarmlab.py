@@ -1,0 +1,57 @@
+"""Helpers for the alarm tests: the simulated lab (with its heater supply) and the logger against it."""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from pathlib import Path
+
+from daq.clock import AcceleratedClock
+from daq.demo import build_demo_config
+from daq.service import Service
+from daq.store import Store
+from simulators.lab import Lab
+
+EPOCH_UTC_S = 1_800_000_000.0
+
+
+def wait_for(condition: Callable[[], object], timeout_s: float = 30.0, what: str = "condition") -> None:
+    deadline = time.monotonic() + timeout_s
+    while not condition():
+        if time.monotonic() > deadline:
+            raise AssertionError(f"timed out waiting for {what}")
+        time.sleep(0.05)
+
+
+class AlarmLab:
+    """A started lab and a started logger on the demo scenario, the heater supply's address filled in."""
+
+    def __init__(self, tmp_path: Path, speed: float) -> None:
+        self.tmp_path = tmp_path
+        self.speed = speed
+        self.lab = Lab(speed=speed, board_link=str(tmp_path / "board"), control_port=None).start()
+        addr = self.lab.addresses()
+        self.config = build_demo_config(addr.meter_resource or "", str(tmp_path / "board"),
+                                        str(tmp_path / "station.db"), where=str(tmp_path / "demo.toml"),
+                                        supply_resource=addr.supply_resource)
+        self.clock = AcceleratedClock(self.lab.world.clock, speed=speed, epoch_utc_s=EPOCH_UTC_S)
+        self.service: Service | None = None
+        self.start_service(new_run=True)
+
+    def start_service(self, *, new_run: bool = False) -> None:
+        self.service = Service(self.config, clock=self.clock, new_run=new_run)
+        self.run_id = self.service.start()
+
+    def events(self, kind: str | None = None) -> list[dict]:
+        with Store.open(self.config.database, readonly=True) as store:
+            ev = store.events(self.run_id)
+        return [e for e in ev if kind is None or e["kind"] == kind]
+
+    def alarms(self) -> dict[str, dict]:
+        with Store.open(self.config.database, readonly=True) as store:
+            return {a["id"]: a for a in store.alarms(self.run_id)}
+
+    def stop(self) -> None:
+        if self.service is not None:
+            self.service.stop()
+        self.lab.close()
