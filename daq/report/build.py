@@ -322,20 +322,34 @@ def _gap_rows(store: Store, run: RunData) -> list[dict[str, Any]]:
             if not ((g.start_s <= s.t0_s or g.end_s >= s.end_s) and g.duration_s <= s.width_s)]
     merged = merge_gaps(gaps)
     margin = 2 * s.width_s + 60.0
-    rows = []
     ids = {c.info.name: c.info.id for c in run.channels}
+    rows = []
     for k, g in enumerate(merged):
+        start, end = g.start_s, g.end_s
+        if k < MAX_REFINED:
+            # from the last valid reading before to the first after, not the bucket edges
+            start, end = _gap_edges(store, ids[g.channels[0]], g.start_s, g.end_s, s.width_s)
         causes = [f"{e['kind'].replace('_', ' ')}: {e['message']}" for e in run.events
-                  if e["kind"] in GAP_CAUSES and g.start_s - margin <= e["t_ms"] / 1000.0 <= g.end_s + margin]
+                  if e["kind"] in GAP_CAUSES and start - margin <= e["t_ms"] / 1000.0 <= end + margin]
         if not causes and k < 50:
-            causes = _status_causes(store, run, g.start_s, min(g.end_s, g.start_s + 600.0), g.channels, ids)
-        rows.append({"start_utc": _utc(g.start_s), "end_utc": _utc(g.end_s), "duration_s": _num(g.duration_s, 1),
+            causes = _status_causes(store, run, start, min(end, start + 600.0), g.channels)
+        rows.append({"start_utc": _utc(start), "end_utc": _utc(end), "duration_s": _num(end - start, 1),
                      "channels": ", ".join(g.channels), "cause": "; ".join(causes) or "no event recorded"})
     return rows
 
 
-def _status_causes(store: Store, run: RunData, t0_s: float, t1_s: float, channels: Sequence[str],
-                   ids: Mapping[str, int]) -> list[str]:
+def _gap_edges(store: Store, ch_id: int, start_s: float, end_s: float, width_s: float) -> tuple[float, float]:
+    """The last valid reading before a gap and the first after it (the bucket edges if none is found)."""
+    t, v, _u = store.raw_window(ch_id, int((start_s - 2 * width_s) * 1000), int(start_s * 1000) - 1)
+    ok = np.isfinite(v)
+    before = float(t[ok][-1]) / 1000.0 if ok.any() else start_s
+    t, v, _u = store.raw_window(ch_id, int(end_s * 1000), int((end_s + 2 * width_s) * 1000))
+    ok = np.isfinite(v)
+    after = float(t[ok][0]) / 1000.0 if ok.any() else end_s
+    return before, after
+
+
+def _status_causes(store: Store, run: RunData, t0_s: float, t1_s: float, channels: Sequence[str]) -> list[str]:
     """Reading statuses in a gap: readings were made, but gave no temperature."""
     counts: dict[str, int] = {}
     wanted = set(channels)
@@ -343,7 +357,6 @@ def _status_causes(store: Store, run: RunData, t0_s: float, t1_s: float, channel
         for row in chunk:
             if row[1] in wanted and row[6] != "ok":
                 counts[row[6]] = counts.get(row[6], 0) + 1
-    del ids
     return [f"readings without temperature, status {k} × {v}" for k, v in sorted(counts.items())]
 
 
@@ -360,9 +373,11 @@ def _refine(store: Store, run: RunData, conf: Conformance) -> Conformance:
             continue
         done += 1
         band = d.band
+        above = d.value is not None and d.limit is not None and d.value > d.limit
 
-        def outside(v: np.ndarray, b: Any = band) -> np.ndarray:
-            return (v < b.lo_c) | (v > b.hi_c)
+        def outside(v: np.ndarray, b: Any = band, up: bool = above) -> np.ndarray:
+            # the side the excursion went to: an overshoot's first bucket also holds the approach
+            return v > b.hi_c if up else v < b.lo_c
 
         start = refine_start(store, ids[d.channel], d.start_s, d.start_s + w, outside)
         end = None if d.end_s is None else refine_end(store, ids[d.channel], d.end_s - w, d.end_s, outside)
@@ -548,6 +563,32 @@ def _write_csv(path: Path, columns: Sequence[str], rows: Sequence[Mapping[str, A
             w.writerow([_cell(r.get(c)) for c in columns])
 
 
+def _write_json(path: Path, summary: Mapping[str, Any]) -> None:
+    """The summary as JSON, a table row per line: streamed, so a long run's tables never become one string."""
+    def enc(v: Any) -> str:
+        return json.dumps(v, ensure_ascii=False, allow_nan=False)
+
+    with path.open("w", encoding="utf-8") as fh:
+        fh.write("{\n")
+        keys = list(summary)
+        for i, key in enumerate(keys):
+            fh.write(f" {enc(key)}: ")
+            if key == "tables":
+                fh.write("{\n")
+                names = list(summary["tables"])
+                for j, name in enumerate(names):
+                    fh.write(f"  {enc(name)}: [")
+                    rows = summary["tables"][name]
+                    for k, row in enumerate(rows):
+                        fh.write(("\n   " if k == 0 else ",\n   ") + enc(row))
+                    fh.write(("\n  ]" if rows else "]") + (",\n" if j + 1 < len(names) else "\n"))
+                fh.write(" }")
+            else:
+                fh.write(json.dumps(summary[key], ensure_ascii=False, allow_nan=False, indent=1).replace("\n", "\n "))
+            fh.write(",\n" if i + 1 < len(keys) else "\n")
+        fh.write("}\n")
+
+
 def make_report(
     db_path: str | Path,
     *,
@@ -669,7 +710,7 @@ def make_report(
         "plots": {name: f"{stem}-{name}.png" for name in images},
     }
     json_path = out / f"{stem}.json"
-    json_path.write_text(json.dumps(summary, indent=1, ensure_ascii=False, allow_nan=False) + "\n", encoding="utf-8")
+    _write_json(json_path, summary)
     csv_paths = []
     for name, cols in TABLE_COLUMNS.items():
         p = out / f"{stem}-{name}.csv"

@@ -307,29 +307,47 @@ class _Collector:
             self.items.append(d)
 
 
-def _dwell_deviations(series: Series, inb: npt.NDArray[np.bool_], dwell: Dwell, phase: str, out: _Collector) -> None:
-    """Excursions and gaps of each sample channel after it entered the band, and a short dwell."""
+def _dwell_deviations(
+    series: Series, inb: npt.NDArray[np.bool_], dwell: Dwell, phase: str, out: _Collector,
+    far_side: str | None = None,
+) -> None:
+    """Excursions and gaps of each sample channel in a stay, and a short dwell.
+
+    An excursion is a stretch out of the band after the channel was first
+    wholly within it, or — at any time in the stay — beyond the band's far
+    side (``far_side`` "above" at the high extreme, "below" at the low one):
+    an overshoot is a deviation even before the channel settles.
+    """
     w = series.width_s
-    seg = inb[dwell.i_start:dwell.i_end]
+    i_s, i_e = dwell.i_start, dwell.i_end
+    seg = inb[i_s:i_e]
+    band = dwell.band
     for c, name in enumerate(series.names):
+        spans: list[tuple[int, int]] = []
         h = np.flatnonzero(seg[:, c])
-        if h.size < 2:
-            continue
-        a, b = int(h[0]), int(h[-1]) + 1
-        starts, ends = true_runs(~seg[a:b, c])
-        spans = [(a + s, a + e) for s, e in zip(starts.tolist(), ends.tolist(), strict=True)]
-        # after the last bucket wholly in the band the channel leaves for good (the ramp away), unless
-        # its mean comes back into the band first: then it left and returned, and that is an excursion
-        tail = series.mean[dwell.i_start + b:dwell.i_end, c]
-        with np.errstate(invalid="ignore"):
-            inside = (tail >= dwell.band.lo_c) & (tail <= dwell.band.hi_c)
-            outside = (tail < dwell.band.lo_c) | (tail > dwell.band.hi_c)
-        back = np.flatnonzero(inside)
-        if back.size and outside[: int(back[-1])].any():
-            spans.append((b, b + int(back[-1]) + 1))
-        for s0, e0 in spans:
-            s, e = s0 - a, e0 - a
-            i0, i1 = dwell.i_start + a + s, dwell.i_start + a + e
+        if h.size:
+            a, b = int(h[0]), int(h[-1]) + 1
+            starts, ends = true_runs(~seg[a:b, c])
+            spans = [(a + s0, a + e0) for s0, e0 in zip(starts.tolist(), ends.tolist(), strict=True)]
+            # after the last bucket wholly in the band the channel leaves for good (the ramp away), unless
+            # its mean comes back into the band first: then it left and returned, and that is an excursion
+            tail = series.mean[i_s + b:i_e, c]
+            with np.errstate(invalid="ignore"):
+                inside = (tail >= band.lo_c) & (tail <= band.hi_c)
+                outside = (tail < band.lo_c) | (tail > band.hi_c)
+            back = np.flatnonzero(inside)
+            if back.size and outside[: int(back[-1])].any():
+                spans.append((b, b + int(back[-1]) + 1))
+        if far_side is not None:
+            with np.errstate(invalid="ignore"):
+                beyond = (series.hi[i_s:i_e, c] > band.hi_c) if far_side == "above" else \
+                    (series.lo[i_s:i_e, c] < band.lo_c)
+            starts, ends = true_runs(beyond)
+            for s0, e0 in zip(starts.tolist(), ends.tolist(), strict=True):
+                if not any(s0 < e1 and s1 < e0 for s1, e1 in spans):
+                    spans.append((s0, e0))
+        for s0, e0 in sorted(spans):
+            i0, i1 = i_s + s0, i_s + e0
             lo, hi = series.lo[i0:i1, c], series.hi[i0:i1, c]
             valid = np.isfinite(lo)
             t0 = series.t0_s + i0 * w
@@ -349,7 +367,7 @@ def _dwell_deviations(series: Series, inb: npt.NDArray[np.bool_], dwell: Dwell, 
                 value, limit, side = float(np.nanmin(lo)), dwell.band.lo_c, "below"
             out.add(Deviation(
                 "excursion", t0, t1, name, dwell.cycle or None, phase, value, limit, "°C", w,
-                f"{phase}: {name} left {dwell.band.describe()} for {_fmt_min(t1 - t0)}, "
+                f"{phase}: {name} was outside {dwell.band.describe()} for {_fmt_min(t1 - t0)}, "
                 f"reaching {value:.2f} °C ({side} {limit:g} °C)",
                 dwell.band,
             ))
@@ -472,7 +490,7 @@ def analyse_cycles(series: Series, profile: CycleProfile) -> Conformance:
                 ramps.append(ramp)
                 _ramp_deviations(series, ramp, profile, f"ramp {ramp.direction}, cycle {ramp.cycle}", out)
             dwells.append(dwell)
-            _dwell_deviations(series, inb, dwell, phase, out)
+            _dwell_deviations(series, inb, dwell, phase, out, far_side="above" if side > 0 else "below")
         prev_start = i0
 
     phase_at = _phase_lookup(ramps, dwells)
@@ -604,7 +622,8 @@ def analyse_soak(series: Series, profile: SoakProfile) -> Conformance:
             ramps.append(r)
     dwell = _measure_dwell(series, inb, ref, band, 0, series.n, level="soak", cycle=0,
                            required_s=profile.duration_s, closed=False)
-    _dwell_deviations(series, inb, dwell, "soak", out)
+    far = None if not ramps else ("above" if ramps[0].direction == "up" else "below")
+    _dwell_deviations(series, inb, dwell, "soak", out, far_side=far)
     if profile.ramp_max_k_per_min is not None:
         def phase_at(t: float) -> tuple[int | None, str]:
             if dwell.entry_s is None or t < dwell.entry_s:

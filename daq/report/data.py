@@ -92,7 +92,7 @@ def _parse_stored_config(text: str) -> tuple[StationConfig | None, str, dict[str
     return cfg, "", table
 
 
-def _intervals(cfg: StationConfig | None, table: dict[str, Any], chans: list[ChannelInfo]) -> dict[str, float | None]:
+def _intervals(cfg: StationConfig | None, chans: list[ChannelInfo]) -> dict[str, float | None]:
     out: dict[str, float | None] = {}
     for c in chans:
         iv: float | None = None
@@ -127,12 +127,14 @@ def load_run(
     chans = store.channels(rid)
     summary = {s["channel"]: s for s in store.summary(rid)}
     first_ms, last_ms = store.time_span(rid)
-    intervals = _intervals(cfg, table, chans)
+    intervals = _intervals(cfg, chans)
     span_s = 0.0 if first_ms is None or last_ms is None else (last_ms - first_ms) / 1000.0
     for c in chans:
-        if intervals[c.name] is None:
-            n = summary.get(c.name, {}).get("readings", 0)
-            intervals[c.name] = span_s / (n - 1) if n > 1 and span_s > 0 else None
+        if intervals[c.name] is None and first_ms is not None:
+            # no instrument interval in the configuration: the median spacing of the first hour's readings
+            t_ms, _temp, _u = store.raw_window(c.id, first_ms, first_ms + 3_600_000)
+            if t_ms.size > 1:
+                intervals[c.name] = float(np.median(np.diff(t_ms))) / 1000.0 or None
     total = sum(int(s.get("readings") or 0) for s in summary.values())
     use_raw = source == "raw" or (source == "auto" and total <= RAW_LIMIT)
     known = [iv for iv in intervals.values() if iv]

@@ -84,10 +84,15 @@ class Performance:
 def stable_mask(series: Series, window_s: float, band_k: float) -> npt.NDArray[np.bool_]:
     """True at each bucket whose trailing window had every channel within ± ``band_k``."""
     m = max(1, int(round(window_s / series.width_s)))
-    span = rolling_max(series.hi, m) - rolling_min(series.lo, m)
-    with np.errstate(invalid="ignore"):
-        ok = span <= 2.0 * band_k + 1e-12
-    return ok.all(axis=1) if ok.ndim == 2 and ok.shape[1] else np.zeros(series.n, dtype=bool)
+    if not series.names:
+        return np.zeros(series.n, dtype=bool)
+    ok = np.ones(series.n, dtype=bool)
+    # one channel at a time: a long run's temporaries stay the size of one column
+    for c in range(len(series.names)):
+        span = rolling_max(series.hi[:, c], m) - rolling_min(series.lo[:, c], m)
+        with np.errstate(invalid="ignore"):
+            ok &= span <= 2.0 * band_k + 1e-12
+    return ok
 
 
 def stable_period(series: Series, mask: npt.NDArray[np.bool_], i0: int, i1: int, window_s: float) -> StablePeriod | None:

@@ -105,22 +105,50 @@ def overview_png(series: Series, conformance: Conformance | None, *, label_first
         ax.plot(x, mean[:, c], lw=0.9, color=colours[c], label=name)
     if conformance is not None:
         _shade_bands(ax, _bands(conformance.profile))
-        for k, d in enumerate(conformance.deviations):
-            a = (d.start_s - t0) / scale
-            b = ((d.end_s if d.end_s is not None else d.start_s) - t0) / scale
-            ax.axvspan(a, max(b, a + (series.width_s / scale)), color=_DEV_COLOUR, alpha=0.18, lw=0)
-            if k < label_first:
-                ax.annotate(str(k + 1), xy=(a, 1.0), xycoords=("data", "axes fraction"), xytext=(0, 2),
-                            textcoords="offset points", ha="center", va="bottom", fontsize=7, color=_DEV_COLOUR)
+        _mark_deviations(ax, conformance, t0, scale, series.width_s, label_first)
     ax.set_xlabel(xlabel)
     ax.set_ylabel("temperature (°C)")
-    ax.set_title("All channels over the run" + ("; red: deviations, numbered as in the table"
+    ax.set_title("All channels over the run" + ("; red: deviations, numbered as in the table (shaded: out of "
+                                                  "band or no data; bar at the top: a short dwell, a ramp)"
                                                   if conformance is not None and conformance.deviations else ""),
-                 fontsize=10, loc="left", pad=14)
+                 fontsize=10, loc="left", pad=22)
     ax.grid(True, lw=0.3, alpha=0.5)
     if len(series.names) <= 16:
         ax.legend(fontsize=7, ncols=min(4, len(series.names)), loc="best", framealpha=0.8)
     return _png(fig)
+
+
+def _numbers(nums: Sequence[int]) -> str:
+    """1, 2, 3, 7 → "1–3, 7" (at most a few groups)."""
+    groups: list[list[int]] = []
+    for n in nums:
+        if groups and n == groups[-1][-1] + 1:
+            groups[-1].append(n)
+        else:
+            groups.append([n])
+    parts = [f"{g[0]}–{g[-1]}" if len(g) > 2 else ", ".join(map(str, g)) for g in groups]
+    return ", ".join(parts[:3]) + ("…" if len(parts) > 3 else "")
+
+
+def _mark_deviations(ax: object, conformance: Conformance, t0: float, scale: float, width_s: float,
+                     label_first: int) -> None:
+    """Excursions and gaps as shaded spans; longer findings (a short dwell, a ramp) as a bar along the top."""
+    groups: dict[tuple[float, float, bool], list[int]] = {}
+    for k, d in enumerate(conformance.deviations):
+        a = (d.start_s - t0) / scale
+        b = ((d.end_s if d.end_s is not None else d.start_s) - t0) / scale
+        b = max(b, a + width_s / scale)
+        local = d.kind in ("excursion", "no_data")
+        groups.setdefault((round(a, 6), round(b, 6), local), []).append(k + 1)
+    for n, ((a, b, local), nums) in enumerate(sorted(groups.items())):
+        if local:
+            ax.axvspan(a, b, color=_DEV_COLOUR, alpha=0.18, lw=0)  # type: ignore[attr-defined]
+        else:
+            ax.axvspan(a, b, ymin=0.965, ymax=1.0, color=_DEV_COLOUR, alpha=0.55, lw=0)  # type: ignore[attr-defined]
+        if n < label_first:
+            ax.annotate(_numbers(nums), xy=(a, 1.0), xycoords=("data", "axes fraction"),  # type: ignore[attr-defined]
+                        xytext=(0, 2 + 8 * (n % 2)), textcoords="offset points", ha="left", va="bottom",
+                        fontsize=7, color=_DEV_COLOUR)
 
 
 def cycle_overlay_png(sample: Series, conformance: Conformance, *, max_cycles: int = 400) -> bytes | None:

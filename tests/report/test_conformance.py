@@ -227,3 +227,21 @@ def test_leaving_a_dwell_for_the_next_ramp_is_not_an_excursion() -> None:
     assert c.deviations == ()
     assert c.dwells[0].channel_in_tolerance_s == pytest.approx((1200.0, 900.0))
     assert c.dwells[0].in_tolerance_s == pytest.approx(900.0)
+
+
+def test_an_overshoot_counts_even_before_the_channel_settles() -> None:
+    # b shoots through to 105 °C at minute 30 (band 100 ± 2 K) and only then settles: never wholly in the
+    # band before, yet beyond its far side: an excursion from 30 to 31 min reaching 105 °C
+    c = analyse(two_channels({30: 5.0}), cycle_profile())
+    (d,) = c.deviations
+    assert (d.kind, d.channel, d.cycle) == ("excursion", "b", 1)
+    assert d.start_s == pytest.approx(30 * 60.0) and d.end_s == pytest.approx(31 * 60.0)
+    assert d.value == pytest.approx(105.0) and d.limit == pytest.approx(102.0)
+
+
+def test_undershoot_at_the_low_extreme() -> None:
+    # the same below the low band: a reading of −3 °C at minute 60 (band 0 ± 2 K)
+    c = analyse(two_channels({60: -3.0}), cycle_profile())
+    (d,) = c.deviations
+    assert (d.kind, d.channel, d.phase) == ("excursion", "b", "dwell low, cycle 1")
+    assert d.value == pytest.approx(-3.0) and d.limit == pytest.approx(-2.0)

@@ -11,7 +11,12 @@ from hypothesis import strategies as st
 from daq.demo import demo_config_text
 from daq.errors import InputError
 from daq.report.build import load_profile_file
-from daq.report.profile import CycleProfile, SoakProfile, parse_profile, profile_channels
+from daq.report.profile import (
+    CycleProfile,
+    SoakProfile,
+    parse_profile,
+    profile_channels,
+)
 
 
 def test_the_demo_profile() -> None:

@@ -232,3 +232,42 @@ def test_progress_is_reported_to_the_end(sim_run: SimRun, tmp_path: Path) -> Non
     make_report(sim_run.db, out_dir=tmp_path, progress=lambda d, t, s: seen.append((d, t, s)))
     assert seen and seen[-1][0] == seen[-1][1]
     assert [d for d, _t, _s in seen] == sorted(d for d, _t, _s in seen)
+
+
+def test_a_run_with_a_profile_but_no_readings(tmp_path: Path) -> None:
+    from daq.demo import demo_config_text
+    from daq.store import Store
+
+    db = tmp_path / "empty.db"
+    with Store.open(db) as st:
+        info = st.begin_run(demo_config_text(), now_ms=T0_MS)
+        st.ensure_channels(info.run_id, [("air-supply", "", "meter", "ohm")])
+    r = make_report(db, out_dir=tmp_path / "out")
+    assert r.summary["verdict"]["result"] == "no_data"
+    assert r.summary["plots"] == {} and r.html.exists()
+
+
+def test_a_gap_is_listed_with_its_cause(tmp_path: Path) -> None:
+    import numpy as np
+
+    from daq.store import SampleBatch, Store
+
+    # readings every 10 s for 10 min, none for the next 5 min (the logger was stopped), then 10 min more
+    db = tmp_path / "gap.db"
+    with Store.open(db) as st:
+        info = st.begin_run('[station]\nname = "gappy"\n', now_ms=T0_MS)
+        ids = st.ensure_channels(info.run_id, [("a", "", "m", "ohm")])
+        t = T0_MS + np.concatenate([np.arange(0, 600_000, 10_000), np.arange(900_000, 1_500_000, 10_000)])
+        n = t.size
+        st.write(info.run_id, SampleBatch(np.full(n, ids["a"]), t.astype(np.int64), np.full(n, np.nan),
+                                          np.full(n, 20.0), np.full(n, 0.2), np.zeros(n, np.int64),
+                                          np.zeros(n, np.int64)))
+        st.add_event(info.run_id, T0_MS + 600_000, "service_stop", "logger stopped")
+        st.add_event(info.run_id, T0_MS + 900_000, "gap", "logger restarted after a gap of 300.0 s; run continues")
+    r = make_report(db, out_dir=tmp_path / "out")
+    (g,) = r.summary["tables"]["gaps"]
+    # the last reading before is at 590 s, the first after at 900 s
+    assert g["start_utc"] == _utc(590.0) and g["end_utc"] == _utc(900.0) and g["duration_s"] == 310.0
+    assert "logger stopped" in g["cause"] and "restarted" in g["cause"]
+    (row,) = r.summary["tables"]["channels"]
+    assert row["readings"] == 120

@@ -10,7 +10,15 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from daq.errors import InputError
-from daq.report.series import Series, bucketize, crossing_time, nan_mean_rows, rolling_max, rolling_min, true_runs
+from daq.report.series import (
+    Series,
+    bucketize,
+    crossing_time,
+    nan_mean_rows,
+    rolling_max,
+    rolling_min,
+    true_runs,
+)
 
 
 def test_bucketize_mean_lowest_highest_by_hand() -> None:
