@@ -31,7 +31,7 @@ from daq.report.alarmlog import (
     alarm_rates,
 )
 from daq.report.channels import channel_gaps, completeness, merge_gaps, time_beyond
-from daq.report.conformance import Conformance, Deviation, analyse
+from daq.report.conformance import Conformance, Deviation, analyse, deviation_summary
 from daq.report.data import RunData, load_run, refine_end, refine_start
 from daq.report.performance import (
     Performance,
@@ -220,7 +220,7 @@ def _config_tables(run: RunData, profile: Profile | None) -> dict[str, list[dict
             params = dict(a.params)
             limit = params.pop("limit_c", None)
             rules.append({"rule": a.name, "kind": a.kind, "channels": ", ".join(a.channels), "severity": a.severity,
-                          "limit_c": limit, "settings": ", ".join(f"{k} = {v}" for k, v in sorted(params.items()))})
+                          "limit_c": limit, "settings": "; ".join(f"{k} = {_setting(v)}" for k, v in sorted(params.items()))})
     else:
         for s in t.get("sensor", []) if isinstance(t.get("sensor"), list) else []:
             if isinstance(s, dict):
@@ -231,6 +231,14 @@ def _config_tables(run: RunData, profile: Profile | None) -> dict[str, list[dict
                 wiring.append({"channel": c.get("name"), "label": c.get("label"), "instrument": c.get("instrument"),
                                "input": c.get("input"), "sensor": c.get("sensor"), "wiring": c.get("wiring")})
     return {"sensors": sensors, "wiring": wiring, "instruments": instruments, "alarm_rules": rules}
+
+
+def _setting(v: Any) -> str:
+    if isinstance(v, (list, tuple)):
+        return ", ".join(_setting(x) for x in v)
+    if isinstance(v, dict):
+        return "{" + ", ".join(f"{k} = {_setting(x)}" for k, x in v.items()) + "}"
+    return str(v)
 
 
 def _test_temperatures(profile: Profile | None) -> list[float]:
@@ -388,7 +396,10 @@ def _refine(store: Store, run: RunData, conf: Conformance) -> Conformance:
             resolution_s=min(d.resolution_s, res) if start is not None else d.resolution_s,
         ))
     out.sort(key=lambda d: (d.start_s, d.channel, d.kind))
-    return dataclasses.replace(conf, deviations=tuple(out))
+    summary = conf.summary
+    if out and conf.verdict == "not_met":
+        summary = deviation_summary(conf.deviations_total, out[0])
+    return dataclasses.replace(conf, deviations=tuple(out), summary=summary)
 
 
 def _conformance_tables(conf: Conformance) -> dict[str, list[dict[str, Any]]]:

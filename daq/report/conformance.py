@@ -64,6 +64,7 @@ __all__ = [
     "analyse",
     "analyse_cycles",
     "analyse_soak",
+    "deviation_summary",
     "side_states",
     "window_rates",
 ]
@@ -571,6 +572,11 @@ def _cycle_rows(ramps: Sequence[Ramp], dwells: Sequence[Dwell], deviations: Sequ
     return rows
 
 
+def deviation_summary(total: int, first: Deviation) -> str:
+    """The one-line verdict of a run with deviations."""
+    return f"not met: {total} deviation{'s' if total != 1 else ''}; the first: {first.message}"
+
+
 def _finish(
     profile: Profile, series: Series, ramps: Sequence[Ramp], dwells: Sequence[Dwell], rows: Sequence[CycleRow],
     out: _Collector, complete: int, planned: int,
@@ -581,8 +587,7 @@ def _finish(
         notes.append(f"{out.total} deviations found; the first {len(items)} are listed")
     if out.total:
         verdict = "not_met"
-        first = items[0]
-        summary = f"not met: {out.total} deviation{'s' if out.total != 1 else ''}; the first: {first.message}"
+        summary = deviation_summary(out.total, items[0])
     elif complete >= planned:
         verdict = "met"
         summary = "met: " + ("every cycle complete" if isinstance(profile, CycleProfile) else "soak complete") + \

@@ -128,7 +128,6 @@ def load_run(
     summary = {s["channel"]: s for s in store.summary(rid)}
     first_ms, last_ms = store.time_span(rid)
     intervals = _intervals(cfg, chans)
-    span_s = 0.0 if first_ms is None or last_ms is None else (last_ms - first_ms) / 1000.0
     for c in chans:
         if intervals[c.name] is None and first_ms is not None:
             # no instrument interval in the configuration: the median spacing of the first hour's readings

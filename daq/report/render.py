@@ -47,6 +47,8 @@ _TITLES = {
     "stable_periods": "stable", "worst_chamber_deviation_k": "worst deviation K",
     "worst_point_deviation_k": "worst point K", "max_spatial_variation_k": "spatial K",
     "max_condition_uncertainty_k": "U of condition K", "shortest_stable_min": "shortest stable min",
+    "id": "alarm point", "state": "state", "acked": "acknowledged", "since_utc": "since (UTC)",
+    "shelved_until_utc": "shelved until",
 }
 
 _CSS = """
@@ -84,11 +86,13 @@ _WORDS = {"met": "profile met", "not_met": "profile not met", "incomplete": "not
 
 _PLOT_TEXT = {
     "overview": ("All channels over the run",
-                 "Shaded blue: the profile's tolerance bands. Shaded red and numbered: each deviation, numbered as in "
-                 "the deviations table."),
+                 "Shaded blue: the profile's tolerance bands. Red, numbered as in the deviations table: a channel out "
+                 "of its band or without readings (shaded), a short dwell or a ramp out of tolerance (a bar along "
+                 "the top)."),
     "cycles": ("Cycles overlaid",
-               "The mean of the sample channels in each cycle, from the 10 % point of its ramp up. Cycles that look "
-               "alike ran alike; one that stands out is worth a look in the cycles table."),
+               "The mean of the sample channels in each cycle, lined up on the moment it reached the high extreme "
+               "(the 90 % point of the ramp up). Cycles that look alike ran alike; one that stands out is worth a "
+               "look in the cycles table."),
     "spread": ("Spread across channels",
                "Highest minus lowest channel at each moment. It is large during ramps (sensors lag differently) and "
                "should settle at each dwell; a rise during a dwell marks a local problem."),
@@ -115,8 +119,10 @@ def _fmt(v: Any) -> tuple[str, bool]:
         return f"{v:d}", True
     if isinstance(v, float):
         a = abs(v)
-        if a != 0 and (a < 1e-3 or a >= 1e7):
-            return f"{v:.4g}", True
+        if a >= 1e7 or (a != 0 and a < 0.01):
+            return f"{v:.5g}", True
+        if v == round(v):
+            return f"{v:.0f}", True
         return (f"{v:.3f}" if a < 1000 else f"{v:.1f}"), True
     return str(v), False
 
@@ -270,9 +276,12 @@ def render_html(summary: Mapping[str, Any], images: Mapping[str, bytes], columns
                  "chamber watched by one technician should sit far below them.</p>")
     parts.append(tab("alarms"))
     if ar.get("states_now"):
-        st_cols = sorted({k for a in ar["states_now"] for k in a})
-        parts.append("<h3>Alarm states when the report was made</h3>")
-        parts.append(_table("alarm_states", st_cols, ar["states_now"], stem))
+        active = [a for a in ar["states_now"] if a.get("state") != "normal"]
+        quiet = len(ar["states_now"]) - len(active)
+        parts.append("<h3>Alarm states at the end of the data</h3>")
+        st_cols = ["id", "channel", "state", "severity", "acked", "since_utc", "shelved_until_utc", "message"]
+        parts.append(_table("alarm_states", st_cols, active, stem))
+        parts.append(f'<p class="note">{quiet} more alarm point{"s" if quiet != 1 else ""} in the normal state.</p>')
     parts.append("<h3>Logger events</h3>")
     parts.append(tab("events"))
 
