@@ -71,6 +71,8 @@ class DashboardApp(App[int]):
         action_writer: writes an operator request (default: into ``db_path``).
         stop_event: when set (by another thread), the app exits.
         actor: who operator requests come from.
+        start_view: the view shown first (probes, graph, alarms, instruments).
+        shown_path: the file's name as the header shows it (default: its absolute path).
     """
 
     # absolute, so that a subclass defined elsewhere (a test) finds it too
@@ -106,6 +108,7 @@ class DashboardApp(App[int]):
         stop_event: threading.Event | None = None,
         actor: str | None = None,
         start_view: str = "probes",
+        shown_path: str | None = None,
     ) -> None:
         super().__init__()
         self.db_path = str(Path(db_path).resolve())
@@ -118,6 +121,7 @@ class DashboardApp(App[int]):
         self.stop_event = stop_event
         self.actor = actor or default_actor()
         self.start_view = start_view
+        self.shown_path = shown_path
         # what the views show, kept here so a view that comes back has it at once
         self.snapshot: Snapshot | None = None
         self.events: deque[EventRow] = deque(maxlen=_EVENTS_KEPT)

@@ -86,7 +86,7 @@ class View(Screen[None]):
         return cast("DashboardApp", self.app)
 
     def compose(self) -> ComposeResult:
-        yield RunHeader(note=self.dash.header_note, id="header")
+        yield RunHeader(note=self.dash.header_note, path=self.dash.shown_path, id="header")
         with Vertical(id="body"):
             yield from self.body()
         yield CautionLine(id="caution")
@@ -95,7 +95,14 @@ class View(Screen[None]):
     def body(self) -> ComposeResult:
         yield from ()
 
+    _composed = False
+
+    def on_mount(self) -> None:
+        self._composed = True
+
     def show(self, snap: Snapshot) -> None:
+        if not self._composed:
+            return  # a snapshot came before the view's widgets exist; on_screen_resume shows it
         self.query_one(RunHeader).show(snap, self.dash.unit)
         self.show_body(snap)
 

@@ -123,14 +123,16 @@ class StoreSource:
         run_id: the run to show; None follows the newest run (and moves to a
             new one when the logger starts it).
         clock: UTC now in seconds (frozen in tests; the service's clock in the demo).
+        run_reread_s: how often the run's row is read again (to see it end, or a new run begin).
     """
 
     def __init__(self, db_path: str | Path, *, run_id: int | None = None,
-                 clock: Callable[[], float] = time.time) -> None:
+                 clock: Callable[[], float] = time.time, run_reread_s: float = _RUN_REREAD_S) -> None:
         self.db_path = str(Path(db_path).resolve())
         self._store = Store.open(self.db_path, readonly=True)
         self._wanted_run = run_id
         self._clock = clock
+        self._run_reread_s = run_reread_s
         self._seq = 0
         self._run: RunView | None = None
         self._run_read_at = -1e18
@@ -197,7 +199,7 @@ class StoreSource:
     def _refresh_run(self) -> bool:
         """Re-read the run row now and then; True when the run shown is new (or first)."""
         mono = time.monotonic()
-        if self._run is not None and mono - self._run_read_at < _RUN_REREAD_S:
+        if self._run is not None and mono - self._run_read_at < self._run_reread_s:
             return False
         self._run_read_at = mono
         row = self._store.run(self._wanted_run)

@@ -115,9 +115,10 @@ class RunHeader(Static):
     RunHeader { height: 4; padding: 0 1; background: $boost; }
     """
 
-    def __init__(self, *, note: str = "", **kw: object) -> None:
+    def __init__(self, *, note: str = "", path: str | None = None, **kw: object) -> None:
         super().__init__("", **kw)  # type: ignore[arg-type]
         self.note = note
+        self.path = path
         self._last: tuple[object, ...] = ()
 
     def show(self, snap: Snapshot, unit: Unit) -> None:
@@ -140,7 +141,7 @@ class RunHeader(Static):
             pct = 100.0 * (elapsed_s or 0.0) / plan.planned_duration_s
             line2.append(f" of {fmt_hours(plan.planned_duration_s)} planned ({pct:.1f} %)")
         line2.append("   file ", style=QUIET)
-        line2.append(_cut_left(run.database, max(12, w - len(line2.plain))))
+        line2.append(_cut_left(self.path or run.database, max(12, w - len(line2.plain))))
 
         prof = plan.profile
         line3 = Text("plan ", style=QUIET)
