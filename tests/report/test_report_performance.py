@@ -12,9 +12,9 @@ import math
 
 import numpy as np
 import pytest
+from reporttools import grid
 
 from daq.report.performance import chamber_performance, stable_mask, stable_period
-from tests.report.conftest import grid
 
 # three points, ten one-minute readings at a set temperature of 125 °C:
 #   A alternates 125.0 / 125.4  → mean 125.2, fluctuation 0.4 K, deviation +0.2 K

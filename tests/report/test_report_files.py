@@ -16,11 +16,11 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from reporttools import DOOR_S, SIM_CYCLES, T0_MS, SimRun
 
 from daq.report import make_report
 from daq.report.build import TABLE_COLUMNS, ReportResult
 from daq.store import iso_utc
-from tests.report.conftest import DOOR_S, SIM_CYCLES, T0_MS, SimRun
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # the PNG specification (ISO/IEC 15948): the 8-byte file signature
 
@@ -271,3 +271,40 @@ def test_a_gap_is_listed_with_its_cause(tmp_path: Path) -> None:
     assert "logger stopped" in g["cause"] and "restarted" in g["cause"]
     (row,) = r.summary["tables"]["channels"]
     assert row["readings"] == 120
+
+
+def test_configuration_in_force_shows_coefficients_and_the_calibration_record(tmp_path: Path) -> None:
+    import numpy as np
+
+    from daq.store import SampleBatch, Store
+
+    # a station whose sensor has its own coefficients and a calibration certificate (invented values)
+    text = (
+        '[station]\nname = "cal-lab"\n'
+        '[[instrument]]\nname = "meter"\ndriver = "scpi"\nresource = "TCPIP0::127.0.0.1::5025::SOCKET"\n'
+        'interval = "10s"\n'
+        '[[sensor]]\nname = "ref"\ncoefficients = [3.9080e-3, -5.780e-7, -4.20e-12]\n'
+        'calibration = { certificate = "CAL-2026-117", expanded_uncertainty_c = 0.03, k = 2.0, '
+        'span_c = [-50.0, 200.0], date = 2026-03-02, due = 2027-03-02 }\n'
+        '[[channel]]\nname = "air"\ninstrument = "meter"\ninput = "101"\nsensor = "ref"\n'
+        '[profile]\nkind = "soak"\ntemperature_c = 85.0\nduration = "1h"\ntolerance_k = 2.0\n'
+    )
+    db = tmp_path / "cal.db"
+    with Store.open(db) as st:
+        info = st.begin_run(text, now_ms=T0_MS, station="cal-lab")
+        ids = st.ensure_channels(info.run_id, [("air", "", "meter", "ohm")])
+        t = T0_MS + np.arange(0, 1_800_000, 10_000, dtype=np.int64)
+        n = t.size
+        st.write(info.run_id, SampleBatch(np.full(n, ids["air"]), t, np.full(n, np.nan), np.full(n, 85.2),
+                                          np.full(n, 0.1), np.zeros(n, np.int64), np.zeros(n, np.int64)))
+    r = make_report(db, out_dir=tmp_path / "out")
+    (s,) = r.summary["tables"]["sensors"]
+    assert (s["a"], s["b"], s["c"]) == (3.9080e-3, -5.780e-7, -4.20e-12)
+    assert s["certificate"] == "CAL-2026-117" and s["cal_uncertainty_k"] == 0.03 and s["cal_k"] == 2.0
+    assert (s["cal_date"], s["cal_due"]) == ("2026-03-02", "2027-03-02")
+    html = r.html.read_text(encoding="utf-8")
+    assert "CAL-2026-117" in html and "3.908" in html
+    # half an hour at 85.2 °C of a one-hour soak: no deviation, not finished
+    assert r.summary["verdict"]["result"] == "incomplete"
+    (row,) = r.summary["tables"]["channels"]
+    assert row["completeness_pct"] == 100.0  # 180 readings every 10 s over 1790 s: all the interval promises
