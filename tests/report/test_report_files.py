@@ -65,9 +65,10 @@ def test_the_door_opening_is_reported_at_its_time(sim_report: ReportResult) -> N
     air = [d for d in devs if d["kind"] == "excursion" and d["channel"] == "air-supply"]
     (d,) = air  # the door is the only thing that knocks the supply air out of its band
     assert d["cycle"] == 2 and d["phase"] == "dwell high, cycle 2"
-    # readings every 10 s; the first one after the door opened (5000 s) that is out of band is at 5010 s,
-    # timed again from the raw readings
-    assert _utc(DOOR_S) < d["start_utc"] <= _utc(DOOR_S + 60.0)
+    # the open door loses G_door·(T_air − T_lab) ≈ 120 W/K × 100 K = 12 kW from 15 kJ/K of air: ~0.8 K/s, so
+    # the air is 3 K down within about 4 s; readings come every 10 s, so the first one out of the band is the
+    # first after the door opened (5000 s): 5010 s, timed again from the raw readings (the buckets are 20 s)
+    assert d["start_utc"] == _utc(DOOR_S + 10.0)
     assert d["resolution_s"] <= 10.0
     assert d["value"] < 122.0  # below the band 125 ± 3 K
 
