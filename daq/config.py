@@ -784,7 +784,13 @@ def _alarms(
     ck: _Checker, raw: Any, channel_names: set[str], instruments: Sequence[InstrumentConfig] = (),
     channels: Sequence[ChannelConfig] = (),
 ) -> list[AlarmConfig]:
-    from daq.alarms import DEFAULT_MAX_AGE_S, DEFAULT_RATE_WINDOW_S, DEFAULT_STALE_AFTER_S, FAULT_STATUSES, KIND_DEFAULTS
+    from daq.alarms import (
+        DEFAULT_MAX_AGE_S,
+        DEFAULT_RATE_WINDOW_S,
+        DEFAULT_STALE_AFTER_S,
+        FAULT_STATUSES,
+        KIND_DEFAULTS,
+    )
 
     out: list[AlarmConfig] = []
     seen: set[str] = set()

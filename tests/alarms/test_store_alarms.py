@@ -84,7 +84,7 @@ def test_alarm_events_are_in_events_v_with_their_channel(tmp_path):
 
 
 def test_a_full_disk_is_a_storage_error_and_nothing_half_written(tmp_path):
-    s, run, ids = _store(tmp_path)
+    s, run, _ids = _store(tmp_path)
     conn = s.connection
     conn.execute(f"PRAGMA max_page_count = {conn.execute('PRAGMA page_count').fetchone()[0]}")
     with pytest.raises(StorageError):

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-import pyvisa
 import pytest
+import pyvisa
 
 from simulators.clock import ManualClock
 from simulators.lab import Lab
