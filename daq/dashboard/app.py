@@ -18,6 +18,7 @@ from typing import ClassVar, Protocol
 from textual import work
 from textual.app import App
 from textual.binding import Binding, BindingType
+from textual.css.query import NoMatches
 from textual.worker import get_current_worker
 
 from daq.dashboard.records import (
@@ -133,6 +134,7 @@ class DashboardApp(App[int]):
         self.fit_all = True
         self.reads = 0
         self.read_problem = ""
+        self._request: TrendRequest | None = None
         self._dash_wake = threading.Event()
         self._dash_closing = threading.Event()
 
@@ -158,7 +160,16 @@ class DashboardApp(App[int]):
 
     def wake(self) -> None:
         """Read the file now rather than at the next tick (a view asked for something new)."""
+        self._note_request()
         self._dash_wake.set()
+
+    def _note_request(self) -> None:
+        """What the view on screen wants plotted, noted here for the reader thread (UI thread only)."""
+        screen = self.screen if self.is_running else None
+        try:
+            self._request = screen.trend_request() if isinstance(screen, View) else None
+        except NoMatches:
+            self._request = None
 
     @work(thread=True, exclusive=True, name="store-reader")
     def _read_loop(self) -> None:
@@ -171,7 +182,7 @@ class DashboardApp(App[int]):
         try:
             while not worker.is_cancelled and not self._dash_closing.is_set():
                 self._dash_wake.clear()
-                request = self._trend_request()
+                request = self._request
                 try:
                     snap = source.poll(request)
                 except SoaklogError as exc:
@@ -190,10 +201,6 @@ class DashboardApp(App[int]):
         except RuntimeError:
             # the app closed while this read was on its way
             self._dash_closing.set()
-
-    def _trend_request(self) -> TrendRequest | None:
-        screen = self.screen if self.is_running else None
-        return screen.trend_request() if isinstance(screen, View) else None
 
     def _read_failed(self, message: str) -> None:
         if message != self.read_problem:
@@ -216,6 +223,7 @@ class DashboardApp(App[int]):
         screen = self.screen
         if isinstance(screen, View):
             screen.show(snap)
+        self._note_request()
 
     # ------------------------------------------------------------ keys
 

@@ -10,6 +10,7 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.css.query import NoMatches
 from textual.screen import ModalScreen, Screen
 from textual.widgets import DataTable, Input, OptionList, Static
 from textual.widgets.option_list import Option
@@ -103,8 +104,11 @@ class View(Screen[None]):
     def show(self, snap: Snapshot) -> None:
         if not self._composed:
             return  # a snapshot came before the view's widgets exist; on_screen_resume shows it
-        self.query_one(RunHeader).show(snap, self.dash.unit)
-        self.show_body(snap)
+        try:
+            self.query_one(RunHeader).show(snap, self.dash.unit)
+            self.show_body(snap)
+        except NoMatches:
+            return  # still mounting its widgets: the next snapshot finds them
 
     def show_body(self, snap: Snapshot) -> None:
         pass
