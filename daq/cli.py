@@ -382,6 +382,8 @@ def _add_check(sub: argparse._SubParsersAction[_Parser]) -> None:
     )
     p.add_argument("config", metavar="CONFIG", help="station file (TOML)")
     p.add_argument("--json", action="store_true", help="print JSON")
+    p.add_argument("--test-actions", action="store_true",
+                   help="fire every alarm action once (program, SCPI command, serial line) to prove the wiring")
     p.set_defaults(func=_cmd_check)
 
 
@@ -395,6 +397,11 @@ def _cmd_check(args: argparse.Namespace) -> int:
         print(json.dumps(rep, indent=2))
     else:
         print(format_check(rep, SAFETY_NOTE))
+    if args.test_actions:
+        from daq.alarms_cli import test_actions
+
+        print()
+        return test_actions(cfg)
     return 0
 
 
@@ -625,8 +632,12 @@ def build_parser() -> argparse.ArgumentParser:
     _add_status(sub)
     _add_convert(sub)
     _add_export(sub)
+    from daq.alarms_cli import add_ack_parser
+    from daq.dashboard.cli import add_parser as _add_dash
     from daq.report.cli import add_parser as _add_report
 
+    _add_dash(sub)
+    add_ack_parser(sub)
     _add_report(sub)
     _add_simulate(sub)
     _add_probe(sub)

@@ -317,7 +317,7 @@ BROKEN_TEXTS = [
          ("channel[1].instrument", "no instrument named 'dmm'; known: meter")),
     case("unknown-sensor", VALID.replace('sensor = "pt100"', 'sensor = "pt1000"'),
          ("channel[1].sensor", "no sensor named 'pt1000'; known: pt100")),
-    case("alarm-unknown-channel", VALID + '[[alarm]]\nname = "hot"\nkind = "high"\nchannels = ["door"]\n',
+    case("alarm-unknown-channel", VALID + '[[alarm]]\nname = "hot"\nkind = "high"\nlimit_c = 130.0\nchannels = ["door"]\n',
          ("alarm[1].channels", "no channel named 'door'")),
     # duplicates
     case("duplicate-instrument", VALID + METER.replace("127.0.0.1", "127.0.0.2"), ("instrument[2].name", "'meter' is used twice")),
