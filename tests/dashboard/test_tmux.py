@@ -1,0 +1,97 @@
+"""The real `soaklog dash` process in a real terminal (tmux): start, read the screen, acknowledge, quit."""
+
+from __future__ import annotations
+
+import shlex
+import shutil
+import subprocess
+import sys
+import time
+import uuid
+from pathlib import Path
+
+import pytest
+
+from daq.store import Store
+
+pytestmark = pytest.mark.skipif(shutil.which("tmux") is None, reason="tmux is not installed")
+
+
+def _dash_command(db: Path) -> list[str]:
+    """``python -m daq dash`` once the CLI has it; until then the same parser through the package."""
+    from daq.cli import build_parser
+
+    sub = next(a for a in build_parser()._actions if a.dest == "command")
+    if "dash" in sub.choices:  # type: ignore[operator]
+        return [sys.executable, "-m", "daq", "dash", "--db", str(db)]
+    return [sys.executable, "-m", "daq.dashboard", "--db", str(db)]
+
+
+class Tmux:
+    """A tmux server of our own (its own socket), so nothing else's sessions are touched."""
+
+    def __init__(self) -> None:
+        self.socket = f"soaklog-test-{uuid.uuid4().hex[:8]}"
+        self.session = "dash"
+
+    def run(self, *args: str) -> subprocess.CompletedProcess[str]:
+        return subprocess.run(["tmux", "-L", self.socket, *args], check=False, capture_output=True, text=True, timeout=20)
+
+    def screen(self) -> str:
+        return self.run("capture-pane", "-p", "-t", self.session).stdout
+
+    def wait_for(self, text: str, timeout_s: float = 30.0) -> str:
+        deadline = time.monotonic() + timeout_s
+        shown = ""
+        while time.monotonic() < deadline:
+            shown = self.screen()
+            if text in shown:
+                return shown
+            time.sleep(0.1)
+        raise AssertionError(f"{text!r} never appeared; the screen was:\n{shown}")
+
+    def alive(self) -> bool:
+        return self.run("has-session", "-t", self.session).returncode == 0
+
+    def close(self) -> None:
+        self.run("kill-server")
+
+
+def test_soaklog_dash_in_a_real_terminal(fixture_db, tmp_path):
+    status = tmp_path / "exit_status"
+    cmd = " ".join(shlex.quote(c) for c in _dash_command(fixture_db))
+    shell = f"cd {shlex.quote(str(Path(__file__).resolve().parents[2]))} && {cmd}; echo $? > {shlex.quote(str(status))}"
+    tmux = Tmux()
+    try:
+        r = tmux.run("new-session", "-d", "-s", tmux.session, "-x", "160", "-y", "50", shell)
+        assert r.returncode == 0, r.stderr
+        shown = tmux.wait_for("Fixture plate")
+        assert "fixture-bench" in shown and "run 1: fixture cycling run" in shown
+        assert "113.000" in shown  # the fixture's air temperature (23 °C + 0.5 K/min for 3 h)
+        assert "not a safety device" in shown
+        tmux.run("send-keys", "-t", tmux.session, "a")
+        tmux.wait_for("active, not acked")
+        tmux.run("send-keys", "-t", tmux.session, "k")
+        deadline = time.monotonic() + 20
+        actions: list[dict] = []
+        while time.monotonic() < deadline and not actions:
+            with Store.open(fixture_db, readonly=True) as st:
+                actions = st.operator_actions()
+            time.sleep(0.1)
+        assert [(a["kind"], a["target"]) for a in actions] == [("acknowledge", "air-high:air")]
+        tmux.wait_for("waiting for the logger")
+        tmux.run("send-keys", "-t", tmux.session, "q")
+        deadline = time.monotonic() + 20
+        while time.monotonic() < deadline and not status.exists():
+            time.sleep(0.1)
+        assert status.read_text().strip() == "0"
+    finally:
+        tmux.close()
+
+
+def test_soaklog_dash_on_a_missing_file_says_so(tmp_path):
+    missing = tmp_path / "nothing.db"
+    r = subprocess.run(_dash_command(missing), check=False, capture_output=True, text=True, timeout=60,
+                       cwd=Path(__file__).resolve().parents[2])
+    assert r.returncode == 1
+    assert "no database at" in r.stderr
