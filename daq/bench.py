@@ -395,6 +395,9 @@ def run_bench(*, quick: bool = False) -> dict[str, Any]:
     result.update(bench_memory(hours=2.0 if quick else 24.0, wall_s=8.0 if quick else 60.0))
     result.update(bench_service_cpu(seconds=3.0 if quick else 20.0))
     result.update(bench_instruments(quick=quick))
+    from daq.alarms_cli import bench_alarm_latency
+
+    result.update(bench_alarm_latency(repeats=3 if quick else 6))
     result["quick"] = quick
     result["not_measured"] = [k for k in CONTRACT_KEYS if result[k] is None]
     return result

@@ -532,6 +532,8 @@ def _add_simulate(sub: argparse._SubParsersAction[_Parser]) -> None:
     )
     p.add_argument("which", choices=("dmm", "adc", "chamber"), help="what to simulate")
     p.add_argument("--port", type=int, default=0, metavar="N", help="multimeter TCP port (default: a free one)")
+    p.add_argument("--supply-port", type=int, default=0, metavar="N",
+                   help="chamber: the heater supply's TCP port (default: a free one)")
     p.add_argument("--link", metavar="PATH", help="board: keep a symlink at PATH to the pseudo-terminal")
     p.add_argument("--control-port", type=int, default=0, metavar="N", help="fault control port (default: a free one)")
     p.add_argument("--speed", type=_positive("×"), default=1.0, metavar="X", help="chamber seconds per real second (default 1)")
@@ -555,6 +557,7 @@ def _cmd_simulate(args: argparse.Namespace) -> int:
         seed=args.seed, speed=args.speed, meter=args.which in ("dmm", "chamber"),
         board=args.which in ("adc", "chamber"), meter_port=args.port, board_link=args.link,
         control_port=args.control_port, truth_log=args.truth, board_rate_hz=args.rate,
+        supply_port=args.supply_port,
         truth_log_interval_s=1.0 if args.truth else None,
     )
     stop = threading.Event()
@@ -571,6 +574,8 @@ def _cmd_simulate(args: argparse.Namespace) -> int:
             print(f"meter   {a.meter_resource}", flush=True)
         if a.board_device:
             print(f"board   {a.board_device}" + (f"  (link {a.board_link})" if a.board_link else ""), flush=True)
+        if getattr(a, "supply_resource", None):
+            print(f"supply  {a.supply_resource}  (the heater supply: OUTPut ON|OFF)", flush=True)
         if a.control:
             print(f"control {a.control[0]} {a.control[1]}", flush=True)
         print(f"chamber seed {args.seed}, {args.speed:g}× real time; Ctrl-C stops", flush=True)
