@@ -480,6 +480,8 @@ class ScpiMeter:
                 err.timeout_s = self.timeout_s  # type: ignore[attr-defined]
                 raise err from exc
             raise self._error(ConnectionLost, f"failed on {command!r}: {exc.description}", command) from exc
+        except pyvisa.errors.Error as exc:  # e.g. InvalidSession: the session was closed under us
+            raise self._error(ConnectionLost, f"lost its VISA session on {command!r}: {exc}", command) from exc
         except ConnectionRefusedError as exc:
             what = "refused the connection: nothing listens there; is the instrument on and the port right?"
             raise self._error(ConnectionLost, what, command) from exc

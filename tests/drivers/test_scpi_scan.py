@@ -69,3 +69,15 @@ def test_one_meter_scans_mixed_wiring_and_ranges(start_sim, make_meter):
     assert [r.current_a for r in scan] == [1e-3, 1e-3, 1e-4]
     status = sim.status()["channels"]
     assert status["103"]["current_a"] == pytest.approx(1e-4)
+
+
+def test_a_session_closed_under_the_driver_is_lost_then_reconnected(start_sim, make_meter, clock):
+    """pyvisa raises InvalidSession on a closed session: the driver must reconnect, not stop."""
+    sim = start_sim()
+    meter = make_meter(sim.resource)
+    meter.open()
+    assert meter.read_scan()[0].status == "ok"
+    meter._inst.close()  # what closing pyvisa's shared resource manager elsewhere does to us
+    assert meter.read_scan()[0].status == "lost"
+    clock.advance(10.0)  # past the back-off
+    assert [r.status for r in meter.read_scan()] == ["ok"] * len(meter.channels)
