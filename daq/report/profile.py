@@ -46,7 +46,7 @@ from typing import Any, Literal
 from daq.config import parse_duration
 from daq.errors import InputError
 
-__all__ = ["PROFILE_KEYS", "Band", "CycleProfile", "Profile", "SoakProfile", "parse_profile"]
+__all__ = ["PROFILE_KEYS", "Band", "CycleProfile", "Profile", "SoakProfile", "parse_profile", "profile_channels"]
 
 #: the ramp-rate tolerance when only a nominal rate is given: ±20 % of it, as
 #: IEC 60068-2-14 test Nb allows (1 ± 0.2, 3 ± 0.6, 5 ± 1 K/min; from memory)
