@@ -308,15 +308,14 @@ def run_dashboard(db_path: str | Path, *, run_id: int | None = None) -> int:
 
 
 class _KeepLog(logging.Handler):
-    """Holds the process's log records while the dashboard owns the terminal."""
+    """Holds the process's log records (warnings and worse) while the dashboard owns the terminal."""
 
     def __init__(self) -> None:
         super().__init__(logging.WARNING)
-        self.records: deque[str] = deque(maxlen=50)
-        self.setFormatter(logging.Formatter("%(asctime)s soaklog %(levelname)s %(message)s"))
+        self.records: deque[logging.LogRecord] = deque(maxlen=200)
 
     def emit(self, record: logging.LogRecord) -> None:
-        self.records.append(self.format(record))
+        self.records.append(record)
 
 
 def run_dashboard_live(
@@ -331,12 +330,20 @@ def run_dashboard_live(
     """Show the dashboard while a logger runs in this process's other threads; exit status.
 
     Returns when the user quits (``stop_event`` is then set, so the caller
-    stops its logger) or when ``stop_event`` is set by the caller. Log lines
-    that would write over the screen are held and printed afterwards.
+    stops its logger) or when ``stop_event`` is set by the caller. Log
+    records that would be written over the screen (stream handlers of the root
+    logger) are held, and handed to those handlers after the dashboard closes.
 
     Args:
-        clock: UTC now in seconds in the logger's time (an accelerated demo
-            runs ahead of the wall clock); default the wall clock.
+        db_path: the logger's database file.
+        stop_event: set when the user quits; the caller sets it to close the dashboard.
+        header_note: a short text for the header (the demo says what it is).
+        clock: UTC now in seconds. Leave the wall clock for an accelerated
+            logger too: when the file's newest reading is ahead of the clock,
+            ages count from that reading, so they stay true to the chamber's
+            time even though commits come once a wall-clock second.
+        run_id: the run to show (None: the newest).
+        refresh_s: seconds between reads of the file.
     """
     root = logging.getLogger()
     moved = [h for h in root.handlers if isinstance(h, logging.StreamHandler)
@@ -354,6 +361,9 @@ def run_dashboard_live(
         root.removeHandler(keep)
         for h in moved:
             root.addHandler(h)
-        for line in keep.records:
-            logging.getLogger("soaklog.dashboard").warning("(while the dashboard was open) %s", line)
+        # what was held goes where it would have gone, now that the terminal is free again
+        for record in keep.records:
+            for h in moved:
+                if record.levelno >= h.level:
+                    h.handle(record)
     return int(app.return_code or 0)

@@ -168,10 +168,12 @@ class StoreSource:
         newest = max((c["t_ms"] for c in latest if c["t_ms"] is not None), default=None)
         clock_ms = int(self._clock() * 1000)
         live = run.ended_ms is None
+        # never before the run's start or its newest reading: an accelerated logger's file runs
+        # ahead of the wall clock, and ages then count from the newest reading
         if not live:
-            now_ms = max(run.ended_ms or 0, newest or 0)
+            now_ms = max(run.ended_ms or 0, newest or 0, run.started_ms or 0)
         else:
-            now_ms = max(clock_ms, newest or 0)
+            now_ms = max(clock_ms, newest or 0, run.started_ms or 0)
         if reset:
             self._seed_history(latest, now_ms)
         channels = tuple(self._channel_row(c) for c in latest)

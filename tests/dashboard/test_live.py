@@ -36,7 +36,7 @@ async def test_values_shown_equal_those_the_logger_stored(lab_run):
     run = lab_run(speed=30.0)
     n = len(run.config.channels)
     wait_for(lambda: _all_channels_read(run.database, n), 60, "a reading of every channel")
-    app = DashboardApp(run.database, clock=run.clock.utc_s, refresh_s=0.2)
+    app = DashboardApp(run.database, refresh_s=0.2)
     async with app.run_test(size=(120, 40)) as pilot:
         await wait_until(pilot, lambda: app.reads >= 2, what="the first reads")
         board = app.screen.query_one(ChannelBoard)
@@ -84,7 +84,7 @@ async def test_an_alarm_acknowledged_with_keys_is_applied_by_the_logger(lab_run)
     wait_for(lambda: door_alarm() is not None, 60, "the sensor-fault alarm on door-corner")
     alarm = door_alarm()
     assert alarm["state"] == "unacknowledged"
-    app = DashboardApp(run.database, clock=run.clock.utc_s, refresh_s=0.2, actor="tester (dashboard)")
+    app = DashboardApp(run.database, refresh_s=0.2, actor="tester (dashboard)")
     async with app.run_test(size=(100, 30)) as pilot:
         await wait_until(pilot, lambda: app.reads >= 2, what="the first reads")
         await pilot.press("a")

@@ -95,3 +95,49 @@ def test_soaklog_dash_on_a_missing_file_says_so(tmp_path):
                        cwd=Path(__file__).resolve().parents[2])
     assert r.returncode == 1
     assert "no database at" in r.stderr
+
+
+LIVE_SCRIPT = """
+import logging, sys, threading, time
+from pathlib import Path
+sys.path.insert(0, {fixtures!r})
+from dashfixtures import LabRun
+from daq.dashboard import run_dashboard_live
+
+# a handler on a stream of our own, as a terminal's would be: held while the dashboard runs
+logging.basicConfig(level=logging.INFO, stream=open({log!r}, "w", buffering=1), format="%(levelname)s %(message)s")
+run = LabRun(Path({tmp!r}), speed=30.0)
+stop = threading.Event()
+# a log line while the dashboard owns the terminal must not be written over the screen
+threading.Timer(3.0, lambda: logging.getLogger("soaklog.test").warning("MIDRUN-LOG-LINE")).start()
+code = run_dashboard_live(run.database, stop_event=stop, header_note="demo at 30x")
+run.stop()
+Path({result!r}).write_text(f"{{code}} {{stop.is_set()}}")
+"""
+
+
+def test_the_live_dashboard_runs_in_front_of_a_logger_in_the_same_process(tmp_path):
+    result = tmp_path / "result"
+    errors = tmp_path / "log"
+    script = tmp_path / "live.py"
+    script.write_text(LIVE_SCRIPT.format(fixtures=str(Path(__file__).parent), tmp=str(tmp_path), result=str(result),
+                                         log=str(errors)))
+    root = Path(__file__).resolve().parents[2]
+    shell = f"cd {shlex.quote(str(root))} && {shlex.quote(sys.executable)} {shlex.quote(str(script))}"
+    tmux = Tmux()
+    try:
+        assert tmux.run("new-session", "-d", "-s", tmux.session, "-x", "120", "-y", "40", shell).returncode == 0
+        shown = tmux.wait_for("[LIVE]", timeout_s=60)
+        assert "demo at 30x" in shown and "Door corner" in shown
+        time.sleep(4.0)  # the script logs its line 3 s after the logger starts
+        assert "MIDRUN-LOG-LINE" not in tmux.screen()
+        assert "MIDRUN-LOG-LINE" not in errors.read_text()  # held, not written while the dashboard shows
+        tmux.run("send-keys", "-t", tmux.session, "q")
+        deadline = time.monotonic() + 30
+        while time.monotonic() < deadline and not result.exists():
+            time.sleep(0.1)
+        # quitting the dashboard sets the stop event, so the caller stops its logger
+        assert result.read_text() == "0 True"
+        assert "WARNING MIDRUN-LOG-LINE" in errors.read_text()  # handed on after the dashboard closed
+    finally:
+        tmux.close()
