@@ -259,8 +259,41 @@ def _all_clear(database: str, run_id: int) -> bool:
 
 
 def main_demo(database: str, duration_s: float | None, speed: float, headless: bool) -> int:
-    """The CLI's entry: headless is the only view until the dashboard exists."""
-    if not headless:
-        print("soaklog demo: the dashboard is not built yet; running headless", file=sys.stderr)
-    run_demo(database=database, duration_s=duration_s, speed=speed)
-    return 0
+    """The CLI's entry: the dashboard in front of the running demo, or progress lines with ``headless``."""
+    if headless or not (sys.stdout.isatty() and sys.stdin.isatty()):
+        if not headless:
+            print("soaklog demo: not a terminal, so no dashboard; running headless", file=sys.stderr)
+        run_demo(database=database, duration_s=duration_s, speed=speed)
+        return 0
+    from daq.dashboard.app import run_dashboard_live
+
+    stop = threading.Event()
+    lines: list[str] = []
+    failure: list[BaseException] = []
+
+    def demo() -> None:
+        try:
+            run_demo(database=database, duration_s=duration_s, speed=speed, out=lines.append, stop=stop)
+        except BaseException as exc:  # noqa: BLE001 - shown after the dashboard closes
+            failure.append(exc)
+        finally:
+            stop.set()
+
+    worker = threading.Thread(target=demo, name="demo", daemon=True)
+    worker.start()
+    deadline = time.monotonic() + 30.0
+    while not any(line.lstrip().startswith("data") for line in lines):
+        if stop.is_set() or time.monotonic() > deadline:
+            break
+        time.sleep(0.05)
+    code = 0
+    if not stop.is_set():
+        note = f"demo: simulated chamber at {speed:g}× real time; q quits and stops the demo"
+        code = run_dashboard_live(database, stop_event=stop, header_note=note)
+    stop.set()
+    worker.join(timeout=60)
+    for line in lines:
+        print(line)
+    if failure:
+        raise failure[0]
+    return code
