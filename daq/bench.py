@@ -398,6 +398,10 @@ def run_bench(*, quick: bool = False) -> dict[str, Any]:
     from daq.alarms_cli import bench_alarm_latency
 
     result.update(bench_alarm_latency(repeats=3 if quick else 6))
+    from daq.report.bench import bench_report
+
+    report = bench_report(hours=20.0 if quick else 1000.0, memory=False)
+    result.update({k: v for k, v in report.items() if not isinstance(v, (list, dict))})
     result["quick"] = quick
     result["not_measured"] = [k for k in CONTRACT_KEYS if result[k] is None]
     return result
