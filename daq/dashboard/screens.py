@@ -16,6 +16,7 @@ from textual.widgets import DataTable, Input, OptionList, Static
 from textual.widgets.option_list import Option
 
 from daq.dashboard.records import WINDOW_TITLE, Snapshot, TrendRequest
+from daq.dashboard.table import LiveTable
 from daq.dashboard.widgets import (
     SAFETY_CAUTION,
     AlarmBoard,
@@ -158,12 +159,12 @@ class ProbesView(View):
         name = self.query_one(ChannelBoard).highlighted_channel
         return None if name is None else TrendRequest((name,), "10min")
 
-    @on(DataTable.RowSelected, "#channels")
-    def _plot(self, event: DataTable.RowSelected) -> None:
-        self.dash.plot_channel(str(event.row_key.value))
+    @on(LiveTable.RowSelected, "#channels")
+    def _plot(self, event: LiveTable.RowSelected) -> None:
+        self.dash.plot_channel(event.row_key)
 
-    @on(DataTable.RowHighlighted, "#channels")
-    def _moved(self, _event: DataTable.RowHighlighted) -> None:
+    @on(LiveTable.RowHighlighted, "#channels")
+    def _moved(self, _event: LiveTable.RowHighlighted) -> None:
         if self.tall:
             self.dash.wake()
 

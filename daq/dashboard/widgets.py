@@ -34,6 +34,7 @@ from daq.dashboard.records import (
     TrendSeries,
     WindowName,
 )
+from daq.dashboard.table import LiveTable
 from daq.dashboard.units import (
     DIFFERENCE_SYMBOL,
     SYMBOL,
@@ -170,7 +171,7 @@ class RunHeader(Static):
         key = (line1.plain, line2.plain, line3.plain, line4.plain, w)
         if key != self._last:
             self._last = key
-            self.update(Text("\n").join([line1, line2, line3, line4]))
+            self.update(Text("\n").join([line1, line2, line3, line4]), layout=False)
 
 
 class CautionLine(Static):
@@ -212,32 +213,28 @@ _CH_NARROW = ("mark", "label", "temp", "u", "status", "rate", "min", "max", "age
 _CH_WIDE = ("mark", "label", "name", "instrument", "temp", "u", "status", "rate", "min", "max", "age", "at", "raw")
 
 
-class ChannelBoard(DataTable[Text]):
+class ChannelBoard(LiveTable):
     """Every channel: value, uncertainty, status, rate, min/max since the start, age of the last good reading."""
 
     DEFAULT_CSS = """
-    ChannelBoard { height: 1fr; scrollbar-size-vertical: 1; }
+    ChannelBoard { height: 1fr; }
     """
 
     WIDE_AT = 120
 
     def __init__(self, **kw: object) -> None:
-        super().__init__(cursor_type="row", cell_padding=0, zebra_stripes=False, **kw)  # type: ignore[arg-type]
+        super().__init__(**kw)
         self._layout: tuple[object, ...] = ()
-        self._cells: dict[tuple[str, str], str] = {}
-        self._order: tuple[str, ...] = ()
 
     @property
     def highlighted_channel(self) -> str | None:
-        if not self._order or self.cursor_row < 0 or self.cursor_row >= len(self._order):
-            return None
-        return self._order[self.cursor_row]
+        return self.highlighted_key
 
-    def _columns(self, unit: Unit, label_w: int, wide: bool) -> list[tuple[str, str, int]]:
+    def _column_spec(self, unit: Unit, label_w: int, wide: bool) -> list[tuple[str, str, int]]:
         d = DIFFERENCE_SYMBOL[unit]
-        cols = [("mark", "", 3), ("label", "Channel", label_w + 2)]
+        cols = [("mark", "", 3), ("label", " Channel", label_w + 2)]
         if wide:
-            cols += [("name", "Id", 15), ("instrument", "On", 9)]
+            cols += [("name", " Id", 15), ("instrument", " On", 9)]
         cols += [
             ("temp", f"{SYMBOL[unit]:>8}", 9), ("u", f"{'±U ' + d:>6}", 7), ("status", " Status", 10),
             ("rate", f"{d + '/min':>7}", 8), ("min", f"{'min':>7}", 8), ("max", f"{'max':>7}", 8),
@@ -250,38 +247,19 @@ class ChannelBoard(DataTable[Text]):
     def show(self, snap: Snapshot, unit: Unit) -> None:
         width = self.size.width or 80
         wide = width >= self.WIDE_AT
-        fixed = sum(w for k, _h, w in self._columns(unit, 0, wide) if k != "label") + 1
+        fixed = sum(w for k, _h, w in self._column_spec(unit, 0, wide) if k != "label") + 2
         longest = max((len(c.label) for c in snap.channels), default=8)
         label_w = max(8, min(28 if wide else 20, longest, width - fixed - 1))
-        layout = (unit, label_w, wide, tuple(c.name for c in snap.channels))
+        layout = (unit, label_w, wide)
         if layout != self._layout:
             self._layout = layout
-            row = self.cursor_row
-            self.clear(columns=True)
-            self._cells.clear()
-            for key, head, w in self._columns(unit, label_w, wide):
-                self.add_column(Text(head, style="bold"), key=key, width=w)
-            keys = tuple(k for k, _h, _w in self._columns(unit, label_w, wide))
-            for c in snap.channels:
-                cells = self._row(c, snap, unit, label_w, wide)
-                self.add_row(*(cells[k] for k in keys), key=c.name)
-                for k in keys:
-                    self._cells[(c.name, k)] = cells[k].plain + str(cells[k].style)
-            self._order = tuple(c.name for c in snap.channels)
-            if 0 <= row < len(self._order):
-                self.move_cursor(row=row)
-            return
-        for c in snap.channels:
-            cells = self._row(c, snap, unit, label_w, wide)
-            for k, text in cells.items():
-                sig = text.plain + str(text.style)
-                if self._cells.get((c.name, k)) != sig:
-                    self._cells[(c.name, k)] = sig
-                    self.update_cell(c.name, k, text)
+            self.set_columns([(k, Text(h), w) for k, h, w in self._column_spec(unit, label_w, wide)])
+        alarmed = alarmed_channels(snap)
+        self.set_rows([(c.name, self._row(c, snap, unit, label_w, wide, alarmed)) for c in snap.channels])
 
-    def _row(self, c: ChannelRow, snap: Snapshot, unit: Unit, label_w: int, wide: bool) -> dict[str, Text]:
-        alarmed = c.name in alarmed_channels(snap)
-        cond = channel_condition(c, snap.now_ms, snap.run.plan, alarmed=alarmed)
+    def _row(self, c: ChannelRow, snap: Snapshot, unit: Unit, label_w: int, wide: bool,
+             alarmed: set[str]) -> dict[str, Text]:
+        cond = channel_condition(c, snap.now_ms, snap.run.plan, alarmed=c.name in alarmed)
         style = ATTENTION if cond.abnormal else ""
         age = None if c.last_ok_ms is None else (snap.now_ms - c.last_ok_ms) / 1000.0
 
