@@ -260,6 +260,11 @@ class DashboardApp(App[int]):
                 for_s: float | None = None) -> None:
         """Queue an operator request for the logger (acknowledge, shelve, unshelve, note)."""
         snap = self.snapshot
+        if snap is not None and not snap.live:
+            # the logger refuses requests queued while none ran on the file; say so now
+            self.notify(f"{kind} not sent: this run has ended, so no logger is there to apply it",
+                        severity="warning", timeout=6)
+            return
         now_ms = snap.now_ms if snap is not None else int(self.clock() * 1000)
         until_ms = None if for_s is None else now_ms + int(for_s * 1000)
         self._send(kind, target, note, until_ms, now_ms, what or target or "the run")
@@ -274,9 +279,7 @@ class DashboardApp(App[int]):
         self._post(self._request_sent, kind, what, rid)
 
     def _request_sent(self, kind: str, what: str, rid: int) -> None:
-        snap = self.snapshot
-        later = "" if snap is None or snap.live else " (the run has ended: a logger continuing it applies it)"
-        self.notify(f"request {rid}: {kind} {what}; the logger applies it{later}", timeout=4)
+        self.notify(f"request {rid}: {kind} {what}; the logger applies it", timeout=4)
         self.wake()
 
     def _request_failed(self, kind: str, what: str, message: str) -> None:

@@ -254,6 +254,11 @@ async def test_a_finished_run_opens_for_review(fixture_db):
         await _started(pilot, app)
         text = screen_text(app)
         assert "[ENDED]" in text and "review of a finished run" in text
+        # no logger will apply a request on an ended run (it refuses those queued while none ran)
+        await pilot.press("a", "k")
+        await pilot.pause(0.3)
+    with Store.open(fixture_db, readonly=True) as st:
+        assert st.operator_actions() == []
 
 
 async def test_setting_the_stop_event_closes_the_app(fixture_db):
