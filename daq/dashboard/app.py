@@ -257,7 +257,7 @@ class DashboardApp(App[int]):
     # ------------------------------------------------------------ operator requests
 
     def request(self, kind: str, *, target: str = "", note: str = "", what: str = "",
-                for_s: float | None = None) -> None:
+                for_s: float | None = None, quiet: bool = False) -> None:
         """Queue an operator request for the logger (acknowledge, shelve, unshelve, note)."""
         snap = self.snapshot
         if snap is not None and not snap.live:
@@ -267,19 +267,21 @@ class DashboardApp(App[int]):
             return
         now_ms = snap.now_ms if snap is not None else int(self.clock() * 1000)
         until_ms = None if for_s is None else now_ms + int(for_s * 1000)
-        self._send(kind, target, note, until_ms, now_ms, what or target or "the run")
+        self._send(kind, target, note, until_ms, now_ms, what or target or "the run", quiet)
 
     @work(thread=True, group="requests")
-    def _send(self, kind: str, target: str, note: str, until_ms: int | None, now_ms: int, what: str) -> None:
+    def _send(self, kind: str, target: str, note: str, until_ms: int | None, now_ms: int, what: str,
+              quiet: bool) -> None:
         try:
             rid = self._write(kind, target=target, note=note, actor=self.actor, now_ms=now_ms, until_ms=until_ms)
         except StorageError as exc:
             self._post(self._request_failed, kind, what, str(exc))
             return
-        self._post(self._request_sent, kind, what, rid)
+        self._post(self._request_sent, kind, what, rid, quiet)
 
-    def _request_sent(self, kind: str, what: str, rid: int) -> None:
-        self.notify(f"request {rid}: {kind} {what}; the logger applies it", timeout=4)
+    def _request_sent(self, kind: str, what: str, rid: int, quiet: bool) -> None:
+        if not quiet:
+            self.notify(f"request {rid}: {kind} {what}; the logger applies it", timeout=4)
         self.wake()
 
     def _request_failed(self, kind: str, what: str, message: str) -> None:

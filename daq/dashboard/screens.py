@@ -261,7 +261,9 @@ class AlarmsView(View):
         super().on_screen_resume()
 
     def show_body(self, snap: Snapshot) -> None:
-        self.query_one(AlarmBoard).show(snap.alarms, snap.now_ms)
+        # alarm points that are normal and never went off are not news: leave them out
+        shown = [a for a in snap.alarms if a.state != "normal" or a.since_utc]
+        self.query_one(AlarmBoard).show(shown, snap.now_ms)
         self.query_one(RequestLine).show(self.dash.actions, snap.now_ms, lines=3 if self.size.height >= 36 else 1)
         self.query_one(EventLog).sync(self.dash.events, snap.now_ms, generation=self.dash.generation)
 
@@ -274,7 +276,7 @@ class AlarmsView(View):
             self.notify(f"{alarm.rule or alarm.id} is {alarm.state.replace('_', ' ')}: nothing to acknowledge",
                         severity="warning")
             return
-        self.dash.request("acknowledge", target=alarm.id, what=alarm.rule or alarm.id)
+        self.dash.request("acknowledge", target=alarm.id, what=alarm.id)
 
     def action_acknowledge_all(self) -> None:
         waiting = [a for a in self.query_one(AlarmBoard).alarms if a.needs_ack]
@@ -282,7 +284,9 @@ class AlarmsView(View):
             self.notify("no alarm waits for an acknowledgement", severity="warning")
             return
         for a in waiting:
-            self.dash.request("acknowledge", target=a.id, what=a.rule or a.id)
+            self.dash.request("acknowledge", target=a.id, what=a.id, quiet=True)
+        self.notify(f"{len(waiting)} acknowledgement request{'s' if len(waiting) != 1 else ''} sent; "
+                    "the logger applies them", timeout=4)
 
     def action_shelve(self) -> None:
         alarm = self.query_one(AlarmBoard).selected_alarm
@@ -294,15 +298,15 @@ class AlarmsView(View):
             if seconds is None:
                 return
             if seconds == 0:
-                self.dash.request("unshelve", target=alarm.id, what=alarm.rule or alarm.id)
+                self.dash.request("unshelve", target=alarm.id, what=alarm.id)
             else:
-                self.dash.request("shelve", target=alarm.id, what=alarm.rule or alarm.id, for_s=seconds)
+                self.dash.request("shelve", target=alarm.id, what=alarm.id, for_s=seconds)
 
         self.app.push_screen(ShelveDialog(alarm.rule or alarm.id, shelved=alarm.state == "shelved"), done)
 
     def action_note(self) -> None:
         alarm = self.query_one(AlarmBoard).selected_alarm
-        about = f"alarm {alarm.rule or alarm.id}" if alarm is not None else "the run"
+        about = f"alarm {alarm.id}" if alarm is not None else "the run"
 
         def done(text: str | None) -> None:
             if text:

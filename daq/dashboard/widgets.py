@@ -547,7 +547,8 @@ class AlarmBoard(DataTable[Text]):
         for k, h, w in cols:
             self.add_column(Text(h, style="bold"), key=k, width=w)
         if not alarms:
-            self.add_row(Text(""), Text(" no alarm in this run", style=QUIET), *[Text("")] * (len(cols) - 2))
+            self.add_row(Text(""), Text(" no alarm has gone off in this run", style=QUIET),
+                         *[Text("")] * (len(cols) - 2))
             return
         for a in alarms:
             attn = a.needs_ack
@@ -595,6 +596,7 @@ class RequestLine(Static):
                 t.append("waiting for the logger", style=ATTENTION)
             else:
                 t.append(f"{a.outcome or 'applied'}", style="bold")
+            t.truncate(max(20, (self.size.width or 80) - 2), overflow="ellipsis")
             out.append(t)
         self.update(Text("\n").join(out))
 
