@@ -18,12 +18,12 @@ import time
 from collections.abc import Callable, Sequence
 from typing import Any
 
+from daq.cliargs import DEFAULT_DB, db_path
 from daq.config import StationConfig
 from daq.errors import InputError, SoaklogError
 
 __all__ = ["add_ack_parser", "cmd_ack", "test_actions", "bench_alarm_latency", "main", "ACTIONS_CAUTION"]
 
-DEFAULT_DB = "soaklog-demo.db"
 #: how long ``ack`` waits for the logger to apply the request (it does so every commit interval, ≤ 1 s)
 DEFAULT_WAIT_S = 10.0
 #: states in which an alarm waits for an acknowledgement
@@ -63,16 +63,6 @@ def add_ack_parser(sub: argparse._SubParsersAction) -> argparse.ArgumentParser: 
     return p
 
 
-def _db_of(args: argparse.Namespace) -> str:
-    if args.db and args.config:
-        raise InputError("give a CONFIG or --db, not both")
-    if args.db:
-        return str(args.db)
-    if args.config:
-        from daq.config import load_config
-
-        return load_config(args.config).database
-    return DEFAULT_DB
 
 
 def _matches(alarms: Sequence[dict[str, Any]], target: str) -> list[dict[str, Any]]:
@@ -93,7 +83,7 @@ def cmd_ack(args: argparse.Namespace) -> int:
         raise InputError("name the ALARM to acknowledge (see soaklog status), or give --all")
     if args.wait < 0:
         raise InputError(f"--wait must not be negative, got {args.wait!r}")
-    path = _db_of(args)
+    path = db_path(args)
     target = "*" if args.all else str(args.alarm)
     with Store.open(path, readonly=True) as store:
         run = store.run()

@@ -10,6 +10,7 @@ from collections.abc import Callable, Sequence
 from typing import Any
 
 from daq import __version__
+from daq.cliargs import DEFAULT_DB, add_db_args, db_path
 from daq.errors import InputError, SoaklogError
 
 __all__ = ["main", "build_parser"]
@@ -345,7 +346,6 @@ def _cmd_bench(args: argparse.Namespace) -> int:
 
 # ---------------------------------------------------------------- station commands
 
-DEFAULT_DB = "soaklog-demo.db"
 
 
 def _setup_logging(debug: bool) -> None:
@@ -358,21 +358,8 @@ def _setup_logging(debug: bool) -> None:
     )
 
 
-def _add_db_args(p: argparse.ArgumentParser) -> None:
-    p.add_argument("config", nargs="?", metavar="CONFIG", help="station file (its database is used)")
-    p.add_argument("--db", metavar="PATH", help=f"database file (default: {DEFAULT_DB}, as the demo writes it)")
 
 
-def _db_path(args: argparse.Namespace) -> str:
-    if args.db and args.config:
-        raise InputError("give a CONFIG or --db, not both")
-    if args.db:
-        return str(args.db)
-    if args.config:
-        from daq.config import load_config
-
-        return load_config(args.config).database
-    return DEFAULT_DB
 
 
 def _add_check(sub: argparse._SubParsersAction[_Parser]) -> None:
@@ -441,7 +428,7 @@ def _add_status(sub: argparse._SubParsersAction[_Parser]) -> None:
         "status", help="latest value of every channel and the active alarms",
         description="Print the newest reading of every channel of a run, the instruments and the active alarms.",
     )
-    _add_db_args(p)
+    add_db_args(p)
     p.add_argument("--run", type=int, metavar="ID", help="run id (default: the newest)")
     p.add_argument("--json", action="store_true", help="print JSON")
     p.set_defaults(func=_cmd_status)
@@ -453,7 +440,7 @@ def _cmd_status(args: argparse.Namespace) -> int:
     from daq.status import format_status, status_report
     from daq.store import Store
 
-    with Store.open(_db_path(args), readonly=True) as store:
+    with Store.open(db_path(args), readonly=True) as store:
         rep = status_report(store, args.run, now_ms=int(time.time() * 1000))
     if args.json:
         print(json.dumps(rep, indent=2))
@@ -470,7 +457,7 @@ def _add_export(sub: argparse._SubParsersAction[_Parser]) -> None:
             "or JSON lines. Streams: any run length exports in bounded memory."
         ),
     )
-    _add_db_args(p)
+    add_db_args(p)
     p.add_argument("--run", type=int, metavar="ID", help="run id (default: the newest)")
     p.add_argument("--format", choices=("csv", "jsonl"), default="csv", help="output format (default csv)")
     p.add_argument("--from", dest="from_t", metavar="T", help="first time, ISO 8601 (UTC if no zone)")
@@ -485,7 +472,7 @@ def _cmd_export(args: argparse.Namespace) -> int:
 
     from_ms = parse_time(args.from_t) if args.from_t else None
     to_ms = parse_time(args.to_t) if args.to_t else None
-    with Store.open(_db_path(args), readonly=True) as store:
+    with Store.open(db_path(args), readonly=True) as store:
         if args.out:
             with open(args.out, "w", encoding="utf-8", newline="") as fh:
                 n = export_run(store, fh, run_id=args.run, fmt=args.format, from_ms=from_ms, to_ms=to_ms,

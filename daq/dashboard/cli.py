@@ -5,10 +5,11 @@ from __future__ import annotations
 import argparse
 from typing import Any
 
+from daq.cliargs import DEFAULT_DB, db_path
+
 __all__ = ["DEFAULT_DB", "add_parser"]
 
 #: the file the demo writes when no --db is given (as the other station commands assume)
-DEFAULT_DB = "soaklog-demo.db"
 
 
 def add_parser(sub: Any) -> argparse.ArgumentParser:
@@ -30,21 +31,9 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     return p
 
 
-def _db_path(args: argparse.Namespace) -> str:
-    from daq.errors import InputError
-
-    if args.db and args.config:
-        raise InputError("give a CONFIG or --db, not both")
-    if args.db:
-        return str(args.db)
-    if args.config:
-        from daq.config import load_config
-
-        return load_config(args.config).database
-    return DEFAULT_DB
 
 
 def _cmd_dash(args: argparse.Namespace) -> int:
     from daq.dashboard.app import run_dashboard
 
-    return run_dashboard(_db_path(args), run_id=args.run)
+    return run_dashboard(db_path(args), run_id=args.run)

@@ -7,12 +7,11 @@ import sys
 from collections.abc import Callable
 from typing import IO
 
-from daq.errors import InputError
+from daq.cliargs import DEFAULT_DB, db_path
 
 __all__ = ["DEFAULT_DB", "DEFAULT_OUT", "add_parser", "cmd_report", "terminal_progress"]
 
 #: the same default as the other viewers: where `soaklog demo` writes
-DEFAULT_DB = "soaklog-demo.db"
 DEFAULT_OUT = "soaklog-report"
 
 
@@ -49,16 +48,6 @@ def add_parser(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:  # t
     return p
 
 
-def _db_path(args: argparse.Namespace) -> str:
-    if args.db and args.config:
-        raise InputError("give a CONFIG or --db, not both")
-    if args.db:
-        return str(args.db)
-    if args.config:
-        from daq.config import load_config
-
-        return load_config(args.config).database
-    return DEFAULT_DB
 
 
 def terminal_progress(stream: IO[str] = sys.stderr) -> Callable[[int, int, str], None] | None:
@@ -82,7 +71,7 @@ def cmd_report(args: argparse.Namespace) -> int:
     from daq.report.build import make_report
 
     result = make_report(
-        _db_path(args), run_id=args.run, profile=args.profile, out_dir=args.out,
+        db_path(args), run_id=args.run, profile=args.profile, out_dir=args.out,
         progress=terminal_progress(), source=args.source,
     )
     v = result.summary["verdict"]
