@@ -33,7 +33,7 @@ from simulators.scpi import ScpiError
 
 __all__ = ["SupplySimulator", "HeaterSwitch", "MAKER", "MODEL"]
 
-MAKER = "Brightwater Instruments"
+MAKER = "Ombrevale Instruments"
 MODEL = "HPS-3000 heater supply"
 FIRMWARE = "1.4"
 SCPI_VERSION = "1999.0"

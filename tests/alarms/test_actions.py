@@ -171,7 +171,7 @@ def test_an_scpi_action_leaves_the_loggers_other_sessions_open(supply):
     other = rm.open_resource(sim.resource, read_termination="\n", write_termination="\n", timeout=5000)
     try:
         assert send_scpi(sim.resource, ["*IDN?"], timeout_s=5.0)[0] == "done"
-        assert other.query("*IDN?").startswith("Brightwater Instruments")
+        assert other.query("*IDN?").startswith("Ombrevale Instruments")
     finally:
         other.close()
 
