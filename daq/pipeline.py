@@ -19,7 +19,7 @@ from daq.config import ChannelConfig, StationConfig
 from daq.sensors.flags import Flag
 from daq.sensors.measurement import Excitation, MeasurementChain
 from daq.store import STATUS_CODES, SampleBatch
-from drivers.base import STATUSES, RawReading, RawScan
+from drivers.base import STATUS_INDEX, STATUSES, RawReading, RawScan
 
 __all__ = ["ChannelPipeline", "Pipeline", "SHORT_FRACTION"]
 
@@ -105,7 +105,7 @@ class Pipeline:
 
 
 class _Columns:
-    """Accumulates scans as column chunks."""
+    """Accumulates scans as column chunks; per-scan constants stay scalars until the end."""
 
     def __init__(self) -> None:
         self.n = 0
@@ -113,10 +113,10 @@ class _Columns:
         self._code: dict[str, int] = {}
         self._tuple_codes: dict[tuple[str, ...], np.ndarray] = {}
         self._names: list[np.ndarray] = []
-        self._t: list[np.ndarray] = []
+        self._t: list[np.ndarray | tuple[int, int]] = []  # an array, or (value, count)
         self._raw: list[np.ndarray] = []
-        self._status: list[np.ndarray] = []
-        self._current: list[np.ndarray] = []
+        self._status: list[np.ndarray] = []  # indexes into drivers.base.STATUSES
+        self._current: list[np.ndarray | tuple[float, int]] = []
 
     def add(self, scan: Sequence[RawReading]) -> None:
         m = len(scan)
@@ -128,21 +128,19 @@ class _Columns:
                 codes = np.array([self._code_for(c) for c in scan.channels], dtype=np.int64)
                 self._tuple_codes[scan.channels] = codes
             self._names.append(codes)
-            self._t.append(np.full(m, int(round(scan.t_utc_s * 1000.0)), dtype=np.int64))
+            self._t.append((int(round(scan.t_utc_s * 1000.0)), m))
             self._raw.append(scan.values)
-            self._status.append(_DRIVER_TO_STORE[scan.status.astype(np.int64)])
+            self._status.append(scan.status)
             cur = scan.current_a
             if isinstance(cur, (list, tuple)):
                 self._current.append(np.array([np.nan if c is None else c for c in cur], dtype=np.float64))
             else:
-                self._current.append(np.full(m, np.nan if cur is None else float(cur)))
+                self._current.append((np.nan if cur is None else float(cur), m))
         else:
             self._names.append(np.array([self._code_for(r.channel) for r in scan], dtype=np.int64))
             self._t.append(np.array([int(round(r.t_utc_s * 1000.0)) for r in scan], dtype=np.int64))
             self._raw.append(np.array([r.value for r in scan], dtype=np.float64))
-            self._status.append(
-                np.array([STATUS_CODES.get(r.status, STATUS_CODES["error"]) for r in scan], dtype=np.int64)
-            )
+            self._status.append(np.array([STATUS_INDEX[r.status] for r in scan], dtype=np.int8))
             self._current.append(
                 np.array([np.nan if r.current_a is None else r.current_a for r in scan], dtype=np.float64)
             )
@@ -156,10 +154,30 @@ class _Columns:
         return code
 
     def arrays(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        status = _DRIVER_TO_STORE[np.concatenate(self._status).astype(np.intp)]
         return (
-            np.concatenate(self._names), np.concatenate(self._t), np.concatenate(self._raw),
-            np.concatenate(self._status), np.concatenate(self._current),
+            np.concatenate(self._names), _expand(self._t, np.int64), np.concatenate(self._raw),
+            status, _expand(self._current, np.float64),
         )
+
+
+def _expand(parts: Sequence[np.ndarray | tuple[float, int]], dtype: type) -> np.ndarray:
+    """Concatenate arrays and (value, count) runs, the runs by one ``np.repeat`` each stretch."""
+    out: list[np.ndarray] = []
+    values: list[float] = []
+    counts: list[int] = []
+    for part in parts:
+        if isinstance(part, tuple):
+            values.append(part[0])
+            counts.append(part[1])
+            continue
+        if values:
+            out.append(np.repeat(np.asarray(values, dtype=dtype), counts))
+            values, counts = [], []
+        out.append(part)
+    if values:
+        out.append(np.repeat(np.asarray(values, dtype=dtype), counts))
+    return np.concatenate(out)
 
 
 #: driver status index (drivers.base.STATUSES) to stored status code
