@@ -1,9 +1,9 @@
-"""`python -m daq` is the same as the `soaklog` command."""
+"""`python -m soaklog` is the same as the `soaklog` command."""
 
 from __future__ import annotations
 
 import sys
 
-from daq.cli import main
+from soaklog.cli import main
 
 sys.exit(main())

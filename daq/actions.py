@@ -35,7 +35,7 @@ from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
-from daq.config import ActionConfig
+from soaklog.config import ActionConfig
 
 __all__ = [
     "ActionOutcome",

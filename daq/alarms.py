@@ -37,7 +37,7 @@ from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING, Literal
 
 if TYPE_CHECKING:
-    from daq.config import AlarmConfig, StationConfig
+    from soaklog.config import AlarmConfig, StationConfig
 
 __all__ = [
     "STATES",

@@ -3,7 +3,7 @@
 ``soaklog ack`` never touches an alarm itself: it writes a request into the
 store's operator actions table, which the running logger applies and records
 (DESIGN.md: the service is the only writer of alarm states), and waits for the
-outcome. Also runnable on its own: ``python -m daq.alarms_cli ack …``.
+outcome. Also runnable on its own: ``python -m soaklog.alarms_cli ack …``.
 """
 
 from __future__ import annotations
@@ -18,9 +18,9 @@ import time
 from collections.abc import Callable, Sequence
 from typing import Any
 
-from daq.cliargs import DEFAULT_DB, db_path
-from daq.config import StationConfig
-from daq.errors import InputError, SoaklogError
+from soaklog.cliargs import DEFAULT_DB, db_path
+from soaklog.config import StationConfig
+from soaklog.errors import InputError, SoaklogError
 
 __all__ = ["add_ack_parser", "cmd_ack", "test_actions", "bench_alarm_latency", "main", "ACTIONS_CAUTION"]
 
@@ -73,7 +73,7 @@ def _matches(alarms: Sequence[dict[str, Any]], target: str) -> list[dict[str, An
 
 def cmd_ack(args: argparse.Namespace) -> int:
     """``soaklog ack``: queue the acknowledgement, wait for the logger's outcome, print it."""
-    from daq.store import Store
+    from soaklog.store import Store
 
     if args.all and args.alarm and not args.config:
         args.config, args.alarm = args.alarm, None  # `ack --all CONFIG`
@@ -126,7 +126,7 @@ def test_actions(cfg: StationConfig, *, out: Callable[[str], None] = print) -> i
     an instrument that answers, a serial port that carries its control line)
     before a run.
     """
-    from daq.actions import ActionRunner
+    from soaklog.actions import ActionRunner
 
     todo = [(a, act) for a in cfg.alarms for act in a.actions]
     if not todo:
@@ -178,11 +178,11 @@ def bench_alarm_latency(repeats: int = 6, interval_s: float = 1.0, wall_limit_s:
     import tempfile
     from pathlib import Path
 
-    from daq.clock import SystemClock
-    from daq.config import parse_config
-    from daq.service import Service
-    from daq.store import Store
-    from simulators.lab import Lab
+    from soaklog.clock import SystemClock
+    from soaklog.config import parse_config
+    from soaklog.service import Service
+    from soaklog.store import Store
+    from soaklog.simulators.lab import Lab
 
     latencies: list[float] = []
     injected: list[float] = []  # when each fault was made (service UTC)
@@ -247,7 +247,7 @@ def _utc_s(iso: str) -> float:
 
 
 def _count(database: str, run_id: int, kind: str) -> int:
-    from daq.store import Store
+    from soaklog.store import Store
 
     with Store.open(database, readonly=True) as store:
         return sum(1 for e in store.events(run_id) if e["kind"] == kind)
@@ -265,7 +265,7 @@ def _wait_count(database: str, run_id: int, kind: str, count: int, deadline: flo
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """``python -m daq.alarms_cli ack …`` (the same command ``soaklog ack`` runs)."""
+    """``python -m soaklog.alarms_cli ack …`` (the same command ``soaklog ack`` runs)."""
     parser = argparse.ArgumentParser(prog="soaklog")
     parser.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")

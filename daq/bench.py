@@ -12,7 +12,7 @@ from typing import Any
 
 import numpy as np
 
-from daq.sensors.cvd import IEC_60751, resistance, temperature
+from soaklog.sensors.cvd import IEC_60751, resistance, temperature
 
 __all__ = ["run_bench", "CONTRACT_KEYS"]
 
@@ -117,10 +117,10 @@ def _ingest_round(n_channels: int, n_scans: int, seed: int) -> dict[str, Any]:
     import tempfile
     from pathlib import Path
 
-    from daq.config import parse_config
-    from daq.pipeline import Pipeline
-    from daq.store import TEMP_SCALE, U_SCALE, Store
-    from drivers import scpi_meter
+    from soaklog.config import parse_config
+    from soaklog.pipeline import Pipeline
+    from soaklog.store import TEMP_SCALE, U_SCALE, Store
+    from soaklog.drivers import scpi_meter
 
     parse = getattr(scpi_meter, "parse_scan", scpi_meter.parse_reply)
     replies = _replies(n_scans, n_channels, seed)
@@ -201,7 +201,7 @@ def bench_trend(n_channels: int = 32, hours: float = 1000.0, seed: int = 11) -> 
     import tempfile
     from pathlib import Path
 
-    from daq.store import SampleBatch, Store
+    from soaklog.store import SampleBatch, Store
 
     rng = np.random.default_rng(seed)
     with tempfile.TemporaryDirectory(prefix="soaklog-bench-") as tmp:
@@ -275,7 +275,7 @@ class _SyntheticMeter:
         pass
 
     def read_scan(self) -> Any:
-        from drivers.base import RawScan
+        from soaklog.drivers.base import RawScan
 
         self._k += 1
         t = self._clock.utc_s()
@@ -306,10 +306,10 @@ def bench_memory(hours: float = 24.0, n_channels: int = 32, wall_s: float = 60.0
     import tempfile
     from pathlib import Path
 
-    from daq.clock import AcceleratedClock
-    from daq.config import parse_config
-    from daq.service import Service
-    from simulators.clock import SimClock
+    from soaklog.clock import AcceleratedClock
+    from soaklog.config import parse_config
+    from soaklog.service import Service
+    from soaklog.simulators.clock import SimClock
 
     speed = hours * 3600.0 / wall_s
     with tempfile.TemporaryDirectory(prefix="soaklog-bench-") as tmp:
@@ -350,9 +350,9 @@ def bench_service_cpu(seconds: float = 20.0, n_channels: int = 32) -> dict[str, 
     import tempfile
     from pathlib import Path
 
-    from daq.clock import SystemClock
-    from daq.config import parse_config
-    from daq.service import Service
+    from soaklog.clock import SystemClock
+    from soaklog.config import parse_config
+    from soaklog.service import Service
 
     with tempfile.TemporaryDirectory(prefix="soaklog-bench-") as tmp:
         db = str(Path(tmp) / "cpu.db")
@@ -369,9 +369,9 @@ def bench_service_cpu(seconds: float = 20.0, n_channels: int = 32) -> dict[str, 
 
 def bench_instruments(*, quick: bool = False) -> dict[str, Any]:
     """The simulators' and drivers' own figures, each against its baseline of the same run."""
-    from drivers.bench import bench_driver_overhead
-    from simulators.bench import bench_chamber
-    from simulators.dmm_bench import bench_dmm
+    from soaklog.drivers.bench import bench_driver_overhead
+    from soaklog.simulators.bench import bench_chamber
+    from soaklog.simulators.dmm_bench import bench_dmm
 
     chamber = bench_chamber(hours=100.0 if quick else 1000.0)
     dmm = bench_dmm(n=1000 if quick else 5000)
@@ -395,10 +395,10 @@ def run_bench(*, quick: bool = False) -> dict[str, Any]:
     result.update(bench_memory(hours=2.0 if quick else 24.0, wall_s=8.0 if quick else 60.0))
     result.update(bench_service_cpu(seconds=3.0 if quick else 20.0))
     result.update(bench_instruments(quick=quick))
-    from daq.alarms_cli import bench_alarm_latency
+    from soaklog.alarms_cli import bench_alarm_latency
 
     result.update(bench_alarm_latency(repeats=3 if quick else 6))
-    from daq.report.bench import bench_report
+    from soaklog.report.bench import bench_report
 
     report = bench_report(hours=20.0 if quick else 1000.0, memory=False)
     result.update({k: v for k, v in report.items() if not isinstance(v, (list, dict))})

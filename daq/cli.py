@@ -9,9 +9,9 @@ import sys
 from collections.abc import Callable, Sequence
 from typing import Any
 
-from daq import __version__
-from daq.cliargs import DEFAULT_DB, add_db_args, db_path
-from daq.errors import InputError, SoaklogError
+from soaklog import __version__
+from soaklog.cliargs import DEFAULT_DB, add_db_args, db_path
+from soaklog.errors import InputError, SoaklogError
 
 __all__ = ["main", "build_parser"]
 
@@ -157,10 +157,10 @@ def _add_convert(sub: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _cmd_convert(args: argparse.Namespace) -> int:
-    from daq.convert import ConvertOptions, convert_records, describe_chain, parse_ohms
+    from soaklog.convert import ConvertOptions, convert_records, describe_chain, parse_ohms
 
     if args.list_curves:
-        from daq.sensors.curves import NAMED_CURVES
+        from soaklog.sensors.curves import NAMED_CURVES
 
         for key, curve in NAMED_CURVES.items():
             print(f"{key:14s} alpha = {curve.alpha:.6f}  {curve.name}")
@@ -300,7 +300,7 @@ def _add_bench(sub: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _cmd_bench(args: argparse.Namespace) -> int:
-    from daq.bench import run_bench
+    from soaklog.bench import run_bench
 
     result = run_bench(quick=args.quick)
     if args.json:
@@ -379,8 +379,8 @@ def _add_check(sub: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _cmd_check(args: argparse.Namespace) -> int:
-    from daq.config import load_config
-    from daq.status import check_report, format_check
+    from soaklog.config import load_config
+    from soaklog.status import check_report, format_check
 
     cfg = load_config(args.config)
     rep = check_report(cfg)
@@ -389,7 +389,7 @@ def _cmd_check(args: argparse.Namespace) -> int:
     else:
         print(format_check(rep, SAFETY_NOTE))
     if args.test_actions:
-        from daq.alarms_cli import test_actions
+        from soaklog.alarms_cli import test_actions
 
         print()
         return test_actions(cfg)
@@ -412,8 +412,8 @@ def _add_run(sub: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _cmd_run(args: argparse.Namespace) -> int:
-    from daq.config import load_config
-    from daq.service import Service
+    from soaklog.config import load_config
+    from soaklog.service import Service
 
     cfg = load_config(args.config)
     _setup_logging(args.debug)
@@ -437,8 +437,8 @@ def _add_status(sub: argparse._SubParsersAction[_Parser]) -> None:
 def _cmd_status(args: argparse.Namespace) -> int:
     import time
 
-    from daq.status import format_status, status_report
-    from daq.store import Store
+    from soaklog.status import format_status, status_report
+    from soaklog.store import Store
 
     with Store.open(db_path(args), readonly=True) as store:
         rep = status_report(store, args.run, now_ms=int(time.time() * 1000))
@@ -467,8 +467,8 @@ def _add_export(sub: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _cmd_export(args: argparse.Namespace) -> int:
-    from daq.export import export_run, parse_time, terminal_progress
-    from daq.store import Store
+    from soaklog.export import export_run, parse_time, terminal_progress
+    from soaklog.store import Store
 
     from_ms = parse_time(args.from_t) if args.from_t else None
     to_ms = parse_time(args.to_t) if args.to_t else None
@@ -501,7 +501,7 @@ def _add_demo(sub: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _cmd_demo(args: argparse.Namespace) -> int:
-    from daq.demo import main_demo
+    from soaklog.demo import main_demo
 
     _setup_logging(args.debug)
     import logging
@@ -540,7 +540,7 @@ def _cmd_simulate(args: argparse.Namespace) -> int:
     import signal
     import threading
 
-    from simulators.lab import Lab
+    from soaklog.simulators.lab import Lab
 
     if args.link and args.which == "dmm":
         raise InputError("--link applies to the board (adc or chamber)")
@@ -596,7 +596,7 @@ def _add_probe(sub: argparse._SubParsersAction[_Parser]) -> None:
 def _cmd_probe(args: argparse.Namespace) -> int:
     import dataclasses
 
-    from drivers.probe import format_probe, probe
+    from soaklog.drivers.probe import format_probe, probe
 
     channels = [c.strip() for c in args.channels.split(",") if c.strip()] if args.channels else None
     result = probe(args.resource, channels=channels, four_wire=args.four_wire, timeout_s=args.timeout,
@@ -628,9 +628,9 @@ def build_parser() -> argparse.ArgumentParser:
     _add_status(sub)
     _add_convert(sub)
     _add_export(sub)
-    from daq.alarms_cli import add_ack_parser
-    from daq.dashboard.cli import add_parser as _add_dash
-    from daq.report.cli import add_parser as _add_report
+    from soaklog.alarms_cli import add_ack_parser
+    from soaklog.dashboard.cli import add_parser as _add_dash
+    from soaklog.report.cli import add_parser as _add_report
 
     _add_dash(sub)
     add_ack_parser(sub)

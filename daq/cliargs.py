@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from daq.errors import InputError
+from soaklog.errors import InputError
 
 __all__ = ["DEFAULT_DB", "add_db_args", "db_path"]
 
@@ -25,7 +25,7 @@ def db_path(args: argparse.Namespace) -> str:
     if args.db:
         return str(args.db)
     if args.config:
-        from daq.config import load_config
+        from soaklog.config import load_config
 
         return load_config(args.config).database
     return DEFAULT_DB

@@ -16,10 +16,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from daq.errors import ConfigError, InputError
-from daq.sensors.cvd import IEC_60751, CvdCurve
-from daq.sensors.leads import Conductor, Leads
-from daq.sensors.measurement import (
+from soaklog.errors import ConfigError, InputError
+from soaklog.sensors.cvd import IEC_60751, CvdCurve
+from soaklog.sensors.leads import Conductor, Leads
+from soaklog.sensors.measurement import (
     AdcSpec,
     Calibration,
     Excitation,
@@ -27,7 +27,7 @@ from daq.sensors.measurement import (
     MeterSpec,
     SensorSpec,
 )
-from daq.sensors.tolerance import ToleranceClass, tolerance_class
+from soaklog.sensors.tolerance import ToleranceClass, tolerance_class
 
 __all__ = [
     "parse_duration",
@@ -545,7 +545,7 @@ def _coefficients(ck: _Checker, value: Any, key: str) -> tuple[float, float, flo
 
 
 def _sensors(ck: _Checker, raw: Any, today: _dt.date) -> list[SensorConfig]:
-    from daq.sensors.curves import named_curve
+    from soaklog.sensors.curves import named_curve
 
     out: list[SensorConfig] = []
     seen: set[str] = set()
@@ -784,7 +784,7 @@ def _alarms(
     ck: _Checker, raw: Any, channel_names: set[str], instruments: Sequence[InstrumentConfig] = (),
     channels: Sequence[ChannelConfig] = (),
 ) -> list[AlarmConfig]:
-    from daq.alarms import (
+    from soaklog.alarms import (
         DEFAULT_MAX_AGE_S,
         DEFAULT_RATE_WINDOW_S,
         DEFAULT_STALE_AFTER_S,

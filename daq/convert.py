@@ -9,11 +9,11 @@ from typing import Any
 
 import numpy as np
 
-from daq.errors import InputError
-from daq.sensors.cvd import IEC_60751, CvdCurve
-from daq.sensors.flags import flag_names
-from daq.sensors.leads import Conductor, Leads
-from daq.sensors.measurement import (
+from soaklog.errors import InputError
+from soaklog.sensors.cvd import IEC_60751, CvdCurve
+from soaklog.sensors.flags import flag_names
+from soaklog.sensors.leads import Conductor, Leads
+from soaklog.sensors.measurement import (
     AdcSpec,
     Calibration,
     Conversion,
@@ -22,7 +22,7 @@ from daq.sensors.measurement import (
     MeterSpec,
     SensorSpec,
 )
-from daq.sensors.tolerance import tolerance_class
+from soaklog.sensors.tolerance import tolerance_class
 
 __all__ = ["ConvertOptions", "parse_ohms", "build_chain", "convert_records", "describe_chain"]
 
@@ -89,7 +89,7 @@ def _curve(opts: ConvertOptions) -> CvdCurve:
     if opts.curve is not None and opts.coefficients is not None:
         raise InputError("give --curve or --coefficients, not both")
     if opts.curve is not None:
-        from daq.sensors.curves import named_curve
+        from soaklog.sensors.curves import named_curve
 
         base = named_curve(opts.curve)
     elif opts.coefficients is not None:

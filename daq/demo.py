@@ -24,10 +24,10 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from daq.clock import AcceleratedClock
-from daq.config import StationConfig, parse_config
-from daq.errors import StorageError
-from daq.service import Service
+from soaklog.clock import AcceleratedClock
+from soaklog.config import StationConfig, parse_config
+from soaklog.errors import StorageError
+from soaklog.service import Service
 
 __all__ = ["demo_config_text", "build_demo_config", "run_demo", "DEFAULT_SPEED", "RUNAWAY_AT_S", "SAFETY_LINES"]
 
@@ -96,7 +96,7 @@ class _Story:
         self.events: list[dict[str, Any]] = []
 
     def poll(self) -> list[dict[str, Any]]:
-        from daq.store import Store
+        from soaklog.store import Store
 
         try:
             with Store.open(self.database, readonly=True) as store:
@@ -146,7 +146,7 @@ def run_demo(
 
 def _run(*, database: str, duration_s: float | None, speed: float, seed: int, out: Callable[[str], None],
          stop: threading.Event, progress_every_s: float, runaway_at_s: float | None) -> dict[str, Any]:
-    from simulators.lab import Lab
+    from soaklog.simulators.lab import Lab
 
     tripped_at: float | None = None
     recovered_at: float | None = None
@@ -247,7 +247,7 @@ def _run(*, database: str, duration_s: float | None, speed: float, seed: int, ou
 
 def _all_clear(database: str, run_id: int) -> bool:
     """Whether no high or high-high alarm of the demo has its condition active any more."""
-    from daq.store import Store
+    from soaklog.store import Store
 
     try:
         with Store.open(database, readonly=True) as store:
@@ -265,7 +265,7 @@ def main_demo(database: str, duration_s: float | None, speed: float, headless: b
             print("soaklog demo: not a terminal, so no dashboard; running headless", file=sys.stderr)
         run_demo(database=database, duration_s=duration_s, speed=speed)
         return 0
-    from daq.dashboard.app import run_dashboard_live
+    from soaklog.dashboard.app import run_dashboard_live
 
     stop = threading.Event()
     lines: list[str] = []

@@ -9,8 +9,8 @@ from collections.abc import Callable
 from datetime import datetime
 from typing import IO
 
-from daq.errors import InputError
-from daq.store import Store, iso_utc
+from soaklog.errors import InputError
+from soaklog.store import Store, iso_utc
 
 __all__ = ["export_run", "parse_time"]
 

@@ -15,11 +15,11 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from daq.config import ChannelConfig, StationConfig
-from daq.sensors.flags import Flag
-from daq.sensors.measurement import Excitation, MeasurementChain
-from daq.store import STATUS_CODES, SampleBatch
-from drivers.base import STATUS_INDEX, STATUSES, RawReading, RawScan
+from soaklog.config import ChannelConfig, StationConfig
+from soaklog.sensors.flags import Flag
+from soaklog.sensors.measurement import Excitation, MeasurementChain
+from soaklog.store import STATUS_CODES, SampleBatch
+from soaklog.drivers.base import STATUS_INDEX, STATUSES, RawReading, RawScan
 
 __all__ = ["ChannelPipeline", "Pipeline", "SHORT_FRACTION"]
 

@@ -33,16 +33,16 @@ from typing import Any
 
 import numpy as np
 
-from daq import __version__
-from daq.actions import ActionOutcome, ActionRunner
-from daq.alarms import AlarmEngine, AlarmEvent, AlarmState, Sample
-from daq.clock import ServiceClock, SystemClock
-from daq.config import InstrumentConfig, StationConfig
-from daq.errors import InstrumentError, StorageError
-from daq.pipeline import Pipeline
-from daq.store import SampleBatch, Store, iso_utc, status_name
-from daq.store.alarms import AlarmRow, EventRow
-from drivers.base import Driver, RawReading
+from soaklog import __version__
+from soaklog.actions import ActionOutcome, ActionRunner
+from soaklog.alarms import AlarmEngine, AlarmEvent, AlarmState, Sample
+from soaklog.clock import ServiceClock, SystemClock
+from soaklog.config import InstrumentConfig, StationConfig
+from soaklog.errors import InstrumentError, StorageError
+from soaklog.pipeline import Pipeline
+from soaklog.store import SampleBatch, Store, iso_utc, status_name
+from soaklog.store.alarms import AlarmRow, EventRow
+from soaklog.drivers.base import Driver, RawReading
 
 __all__ = ["Service", "ServiceStats", "default_driver_factory", "MAX_BUFFERED_READINGS"]
 
@@ -70,7 +70,7 @@ def default_driver_factory(cfg: InstrumentConfig, clock: ServiceClock, inputs: S
                            station: StationConfig | None = None) -> Driver:
     """Build the driver an instrument's configuration names (``station`` gives per-channel settings)."""
     if cfg.driver == "scpi":
-        from drivers.scpi_meter import ScpiMeter
+        from soaklog.drivers.scpi_meter import ScpiMeter
 
         settings = None
         if station is not None:
@@ -80,7 +80,7 @@ def default_driver_factory(cfg: InstrumentConfig, clock: ServiceClock, inputs: S
             }
         return ScpiMeter.from_config(cfg, clock, channels=inputs, channel_settings=settings)
     if cfg.driver == "serial-adc":
-        from drivers.serial_adc import SerialAdc
+        from soaklog.drivers.serial_adc import SerialAdc
 
         return SerialAdc.from_config(cfg, clock, inputs)
     raise InstrumentError(f"no driver for {cfg.driver!r} (instrument {cfg.name})")
@@ -279,7 +279,7 @@ class Service:
                 readings = driver.read_scan()
             except Exception as exc:  # noqa: BLE001 - contract says never, but never trust it
                 log.exception("%s: read_scan raised", inst.name)
-                from drivers.base import failed_scan
+                from soaklog.drivers.base import failed_scan
 
                 readings = failed_scan(
                     [c.input for c in self.config.channels if c.instrument == inst.name],
@@ -600,6 +600,6 @@ def _outcome_event(o: ActionOutcome, ch_ids: dict[str, int]) -> EventRow:
 def summarise_batch(batch: SampleBatch) -> dict[str, Any]:
     """Counts by status of a batch (for logs and tests)."""
     codes, counts = np.unique(batch.status, return_counts=True)
-    from daq.store import status_name
+    from soaklog.store import status_name
 
     return {status_name(int(c)): int(n) for c, n in zip(codes, counts, strict=True)}

@@ -7,9 +7,9 @@ from typing import Any
 
 import numpy as np
 
-from daq.config import StationConfig
-from daq.sensors.flags import flag_names
-from daq.store import Store
+from soaklog.config import StationConfig
+from soaklog.sensors.flags import flag_names
+from soaklog.store import Store
 
 __all__ = ["status_report", "format_status", "check_report", "format_check"]
 

@@ -6,10 +6,10 @@ and know nothing of temperature.
 
 from __future__ import annotations
 
-from drivers.base import STATUSES, Driver, Health, RawReading, RawScan, failed_scan
-from drivers.probe import ProbeResult, format_probe, probe
-from drivers.scpi_meter import PROFILES, Backoff, MeterProfile, ScpiMeter, parse_reply, parse_scan, profile_named
-from drivers.serial_adc import SerialAdc
+from soaklog.drivers.base import STATUSES, Driver, Health, RawReading, RawScan, failed_scan
+from soaklog.drivers.probe import ProbeResult, format_probe, probe
+from soaklog.drivers.scpi_meter import PROFILES, Backoff, MeterProfile, ScpiMeter, parse_reply, parse_scan, profile_named
+from soaklog.drivers.serial_adc import SerialAdc
 
 __all__ = [
     "Backoff",

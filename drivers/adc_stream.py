@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from drivers.adcframe import (
+from soaklog.drivers.adcframe import (
     FLAG_CONFIG_CHANGED,
     Frame,
     FrameDecoder,
@@ -19,7 +19,7 @@ from drivers.adcframe import (
     Reply,
     counts_to_ohm,
 )
-from drivers.base import RawReading, failed_scan
+from soaklog.drivers.base import RawReading, failed_scan
 
 __all__ = ["AdcStream", "Record", "CODE_STATUS"]
 

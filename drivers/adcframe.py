@@ -115,7 +115,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Literal
 
-from daq.errors import InputError
+from soaklog.errors import InputError
 
 __all__ = [
     "START",

@@ -27,7 +27,7 @@ from contextlib import contextmanager
 
 import pyvisa
 
-from drivers.scpi_meter import ScpiMeter
+from soaklog.drivers.scpi_meter import ScpiMeter
 
 __all__ = ["TARGET_OVERHEAD", "bench_driver_overhead"]
 
@@ -38,8 +38,8 @@ TARGET_OVERHEAD = 0.20
 # the child: a noiseless meter with N channels, serving until its stdin closes
 _SERVE = """
 import sys
-from simulators.dmm import DmmSimulator
-from simulators.plant import FixedPlant
+from soaklog.simulators.dmm import DmmSimulator
+from soaklog.simulators.plant import FixedPlant
 names = {101 + i: f"r{i:02d}" for i in range(int(sys.argv[1]))}
 plant = FixedPlant({name: 100.0 + i for i, name in enumerate(names.values())})
 with DmmSimulator(plant, names, time_scale=0.0, noise_scale=0.0) as sim:

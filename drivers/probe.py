@@ -15,8 +15,8 @@ from dataclasses import dataclass
 import pyvisa
 from pyvisa.constants import StatusCode
 
-from drivers.base import RawReading, failed_scan
-from drivers.scpi_meter import PROFILES, MeterProfile, format_channel_list, parse_error_entry, parse_reply
+from soaklog.drivers.base import RawReading, failed_scan
+from soaklog.drivers.scpi_meter import PROFILES, MeterProfile, format_channel_list, parse_error_entry, parse_reply
 
 __all__ = ["ProbeResult", "probe", "format_probe"]
 

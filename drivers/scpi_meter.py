@@ -25,16 +25,16 @@ from typing import TYPE_CHECKING, Literal, Protocol, TypeVar
 import pyvisa
 from pyvisa.constants import StatusCode
 
-from daq.clock import SystemClock
-from daq.errors import (
+from soaklog.clock import SystemClock
+from soaklog.errors import (
     ConfigError,
     ConnectionLost,
     InputError,
     InstrumentError,
     InstrumentTimeout,
 )
-from drivers.base import STATUS_INDEX, Health, RawReading, failed_scan
-from drivers.scpi_text import (
+from soaklog.drivers.base import STATUS_INDEX, Health, RawReading, failed_scan
+from soaklog.drivers.scpi_text import (
     NOT_A_NUMBER,
     OVERLOAD,
     PROFILES,
@@ -45,10 +45,10 @@ from drivers.scpi_text import (
     parse_scan,
     profile_named,
 )
-from drivers.scpi_text import shown as _shown
+from soaklog.drivers.scpi_text import shown as _shown
 
 if TYPE_CHECKING:
-    from daq.config import InstrumentConfig
+    from soaklog.config import InstrumentConfig
 
 __all__ = [
     "OVERLOAD",

@@ -15,8 +15,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from daq.errors import InputError
-from drivers.base import STATUS_INDEX, RawReading, RawScan, failed_scan
+from soaklog.errors import InputError
+from soaklog.drivers.base import STATUS_INDEX, RawReading, RawScan, failed_scan
 
 __all__ = [
     "OVERLOAD",

@@ -46,24 +46,24 @@ from typing import TYPE_CHECKING, Protocol
 
 import serial
 
-from daq.clock import SystemClock
-from daq.errors import (
+from soaklog.clock import SystemClock
+from soaklog.errors import (
     ConfigError,
     ConnectionLost,
     InputError,
     InstrumentError,
     InstrumentTimeout,
 )
-from drivers.adc_stream import AdcStream, Record
-from drivers.adcframe import (
+from soaklog.drivers.adc_stream import AdcStream, Record
+from soaklog.drivers.adcframe import (
     MAX_CHANNELS,
     Reply,
     encode_command,
 )
-from drivers.base import Health, RawReading, failed_scan
+from soaklog.drivers.base import Health, RawReading, failed_scan
 
 if TYPE_CHECKING:
-    from daq.config import InstrumentConfig
+    from soaklog.config import InstrumentConfig
 
 __all__ = ["AdcStream", "Clock", "DEFAULT_BACKOFF_S", "SerialAdc"]
 

@@ -55,10 +55,10 @@ import time
 import tty
 from collections.abc import Sequence
 
-from daq.errors import InputError
-from drivers import adcframe as af
-from simulators.control import CommandTable, ControlError, ControlServer
-from simulators.plant import OPEN_OHM, FixedPlant, Plant
+from soaklog.errors import InputError
+from soaklog.drivers import adcframe as af
+from soaklog.simulators.control import CommandTable, ControlError, ControlServer
+from soaklog.simulators.plant import OPEN_OHM, FixedPlant, Plant
 
 __all__ = [
     "AdcBoardSimulator",

@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import time
 
-from simulators.chamber import ChamberModel, ChamberParams, Position
-from simulators.profiles import Cycle
+from soaklog.simulators.chamber import ChamberModel, ChamberParams, Position
+from soaklog.simulators.profiles import Cycle
 
 __all__ = ["bench_chamber", "TARGET_WALL_S"]
 

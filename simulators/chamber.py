@@ -50,8 +50,8 @@ from dataclasses import dataclass, field, fields
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import InputError
-from simulators.profiles import LAB_AMBIENT_C, Phase, Profile
+from soaklog.errors import InputError
+from soaklog.simulators.profiles import LAB_AMBIENT_C, Phase, Profile
 
 __all__ = ["ChamberParams", "Position", "ChamberState", "ChamberModel", "transition_matrix"]
 

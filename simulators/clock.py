@@ -14,7 +14,7 @@ import time
 from collections.abc import Callable
 from typing import Protocol
 
-from daq.errors import InputError
+from soaklog.errors import InputError
 
 __all__ = ["Clock", "SimClock", "ManualClock"]
 

@@ -32,10 +32,10 @@ from typing import Literal
 
 import numpy as np
 
-from simulators import scpi
-from simulators.control import CommandTable, ControlError
-from simulators.plant import Plant
-from simulators.scpi import ScpiError
+from soaklog.simulators import scpi
+from soaklog.simulators.control import CommandTable, ControlError
+from soaklog.simulators.plant import Plant
+from soaklog.simulators.scpi import ScpiError
 
 __all__ = [
     "FIRMWARE",

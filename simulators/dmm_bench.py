@@ -14,8 +14,8 @@ import time
 
 import pyvisa
 
-from simulators.dmm import DmmSimulator
-from simulators.plant import FixedPlant
+from soaklog.simulators.dmm import DmmSimulator
+from soaklog.simulators.plant import FixedPlant
 
 __all__ = ["TARGET_QUERIES_PER_S", "bench_dmm"]
 

@@ -15,9 +15,9 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
-from simulators.clock import Clock
-from simulators.control import CommandTable, ControlError, ControlServer
-from simulators.world import DEMO_BOARD_CHANNELS, DEMO_METER_CHANNELS, ChamberWorld, demo_world
+from soaklog.simulators.clock import Clock
+from soaklog.simulators.control import CommandTable, ControlError, ControlServer
+from soaklog.simulators.world import DEMO_BOARD_CHANNELS, DEMO_METER_CHANNELS, ChamberWorld, demo_world
 
 __all__ = ["Lab", "LabAddresses", "METER_CHANNEL_MAP", "BOARD_CHANNEL_MAP"]
 
@@ -66,9 +66,9 @@ class Lab:
         supply: bool = True,
         supply_port: int = 0,
     ) -> None:
-        from simulators.adc import AdcBoardSimulator
-        from simulators.dmm import DmmSimulator
-        from simulators.supply import SupplySimulator
+        from soaklog.simulators.adc import AdcBoardSimulator
+        from soaklog.simulators.dmm import DmmSimulator
+        from soaklog.simulators.supply import SupplySimulator
 
         self.speed = speed
         self.world: ChamberWorld = demo_world(

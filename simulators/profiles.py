@@ -24,7 +24,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import InputError
+from soaklog.errors import InputError
 
 __all__ = [
     "LAB_AMBIENT_C",

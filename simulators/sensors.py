@@ -39,11 +39,11 @@ from typing import Literal
 
 import numpy as np
 
-from daq.errors import InputError
-from daq.sensors.cvd import IEC_60751, CvdCurve, resistance
-from daq.sensors.leads import Conductor
-from daq.sensors.tolerance import tolerance_class
-from simulators.plant import OPEN_OHM
+from soaklog.errors import InputError
+from soaklog.sensors.cvd import IEC_60751, CvdCurve, resistance
+from soaklog.sensors.leads import Conductor
+from soaklog.sensors.tolerance import tolerance_class
+from soaklog.simulators.plant import OPEN_OHM
 
 __all__ = [
     "SHORT_OHM",

@@ -27,9 +27,9 @@ import threading
 from collections.abc import Callable, Sequence
 from typing import Protocol
 
-from simulators import scpi
-from simulators.control import CommandTable, ControlError
-from simulators.scpi import ScpiError
+from soaklog.simulators import scpi
+from soaklog.simulators.control import CommandTable, ControlError
+from soaklog.simulators.scpi import ScpiError
 
 __all__ = ["SupplySimulator", "HeaterSwitch", "MAKER", "MODEL"]
 

@@ -32,14 +32,14 @@ from typing import IO, Literal
 
 import numpy as np
 
-from daq.errors import InputError
-from daq.sensors.leads import Conductor
-from simulators.chamber import ChamberModel, ChamberParams, Position
-from simulators.clock import Clock, SimClock
-from simulators.control import CommandTable, ControlError
-from simulators.plant import Terminal
-from simulators.profiles import Cycle
-from simulators.sensors import NO_FAULT, Fault, FaultState, Reading, SimSensor
+from soaklog.errors import InputError
+from soaklog.sensors.leads import Conductor
+from soaklog.simulators.chamber import ChamberModel, ChamberParams, Position
+from soaklog.simulators.clock import Clock, SimClock
+from soaklog.simulators.control import CommandTable, ControlError
+from soaklog.simulators.plant import Terminal
+from soaklog.simulators.profiles import Cycle
+from soaklog.simulators.sensors import NO_FAULT, Fault, FaultState, Reading, SimSensor
 
 __all__ = [
     "ChamberWorld",

@@ -12,12 +12,12 @@ import math
 import subprocess
 import sys
 
-from daq.bench import CONTRACT_KEYS
+from soaklog.bench import CONTRACT_KEYS
 
 
 def test_bench_json_has_every_contract_key():
     p = subprocess.run(
-        [sys.executable, "-m", "daq", "bench", "--quick", "--json"],
+        [sys.executable, "-m", "soaklog", "bench", "--quick", "--json"],
         capture_output=True, text=True, timeout=300,
     )
     assert p.returncode == 0, p.stderr

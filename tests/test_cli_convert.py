@@ -11,7 +11,7 @@ import pytest
 
 def soaklog(*args: str) -> subprocess.CompletedProcess[str]:
     return subprocess.run(
-        [sys.executable, "-m", "daq", *args], capture_output=True, text=True, timeout=60
+        [sys.executable, "-m", "soaklog", *args], capture_output=True, text=True, timeout=60
     )
 
 

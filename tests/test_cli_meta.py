@@ -7,7 +7,7 @@ import pathlib
 import subprocess
 import sys
 
-from daq.cli import build_parser
+from soaklog.cli import build_parser
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 
@@ -28,14 +28,14 @@ def test_every_command_has_help_and_is_in_the_readme():
 
 
 def test_python_m_daq_is_the_same_entry_point():
-    p = subprocess.run([sys.executable, "-m", "daq", "--help"], capture_output=True, text=True)
+    p = subprocess.run([sys.executable, "-m", "soaklog", "--help"], capture_output=True, text=True)
     assert p.returncode == 0
     assert "convert" in p.stdout
     assert "not a safety device" in p.stdout
 
 
 def test_no_command_prints_help_and_exits_2():
-    p = subprocess.run([sys.executable, "-m", "daq"], capture_output=True, text=True)
+    p = subprocess.run([sys.executable, "-m", "soaklog"], capture_output=True, text=True)
     assert p.returncode == 2
     assert "usage" in p.stdout
 

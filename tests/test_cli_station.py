@@ -19,7 +19,7 @@ ROOT = Path(__file__).resolve().parents[1]
 
 
 def soaklog(*args: str, timeout: float = 120) -> subprocess.CompletedProcess[str]:
-    return subprocess.run([sys.executable, "-m", "daq", *args], capture_output=True, text=True, timeout=timeout)
+    return subprocess.run([sys.executable, "-m", "soaklog", *args], capture_output=True, text=True, timeout=timeout)
 
 
 @pytest.fixture(scope="module")
@@ -84,7 +84,7 @@ def test_status_of_a_missing_database_says_what_to_do(tmp_path):
 
 @pytest.fixture
 def simulated_meter():
-    p = subprocess.Popen([sys.executable, "-m", "daq", "simulate", "dmm"], stdout=subprocess.PIPE,
+    p = subprocess.Popen([sys.executable, "-m", "soaklog", "simulate", "dmm"], stdout=subprocess.PIPE,
                          stderr=subprocess.DEVNULL, text=True)
     resource = control = None
     deadline = time.monotonic() + 20
@@ -102,7 +102,7 @@ def simulated_meter():
 
 
 def test_probe_diagnoses_a_live_a_dead_and_a_faulty_meter(simulated_meter):
-    from simulators.control import send_control
+    from soaklog.simulators.control import send_control
 
     resource, control = simulated_meter
     p = soaklog("probe", resource, "--channels", "101,102", "--four-wire")

@@ -17,8 +17,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from daq.config import ConfigProblems, StationConfig, load_config, parse_config, parse_duration
-from daq.errors import ConfigError, InputError
+from soaklog.config import ConfigProblems, StationConfig, load_config, parse_config, parse_duration
+from soaklog.errors import ConfigError, InputError
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 BROKEN = pathlib.Path(__file__).resolve().parent / "configs_broken"
@@ -851,7 +851,7 @@ def test_calibration_supersedes_the_class():
     # JCGM 100:2008 (GUM) 4.3.3: a quoted expanded uncertainty over its coverage factor, U/k = 0.04/2 K
     np.testing.assert_allclose(budget["sensor_calibration"], [0.02, 0.02], rtol=1e-12)
     assert conv.temperature_c[1] == pytest.approx(100.0, abs=1e-3)
-    from daq.sensors.flags import Flag
+    from soaklog.sensors.flags import Flag
 
     assert not conv.flags[0] & Flag.CALIBRATION_EXTRAPOLATED  # 0 °C is inside [-50, 50]
     assert conv.flags[1] & Flag.CALIBRATION_EXTRAPOLATED      # 100 °C is not
@@ -889,7 +889,7 @@ def test_sensor_r0_sets_a_pt1000():
 # ---------------------------------------------------------------- through the command line (subprocess)
 
 def _soaklog(*args: str, cwd: pathlib.Path) -> subprocess.CompletedProcess[str]:
-    return subprocess.run([sys.executable, "-m", "daq", *args], capture_output=True, text=True, cwd=cwd, timeout=60)
+    return subprocess.run([sys.executable, "-m", "soaklog", *args], capture_output=True, text=True, cwd=cwd, timeout=60)
 
 
 def _bad_station(tmp_path: pathlib.Path) -> tuple[pathlib.Path, pathlib.Path]:

@@ -7,8 +7,8 @@ import sqlite3
 import numpy as np
 import pytest
 
-from daq.errors import StorageError
-from daq.store import STATUS_CODES, SampleBatch, Store
+from soaklog.errors import StorageError
+from soaklog.store import STATUS_CODES, SampleBatch, Store
 
 T0 = 1_764_633_600_000  # 2025-12-02T00:00:00Z in ms
 
@@ -172,7 +172,7 @@ def test_events_view(store):
 
 def test_a_version_2_file_upgrades_and_its_totals_come_from_the_rollups(tmp_path):
     """Migration 3 adds running totals to an existing file and fills them from its minute rollups."""
-    from daq.store.schema import MIGRATIONS, statements
+    from soaklog.store.schema import MIGRATIONS, statements
 
     p = tmp_path / "old.db"
     conn = sqlite3.connect(p, isolation_level=None)

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from daq.dashboard.app import DashboardApp, run_dashboard, run_dashboard_live
-from daq.dashboard.cli import add_parser
+from soaklog.dashboard.app import DashboardApp, run_dashboard, run_dashboard_live
+from soaklog.dashboard.cli import add_parser
 
 __all__ = ["DashboardApp", "add_parser", "run_dashboard", "run_dashboard_live"]

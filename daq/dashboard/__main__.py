@@ -1,16 +1,16 @@
-"""``python -m daq.dashboard [--db PATH | CONFIG] [--run ID]``: the same command as ``soaklog dash``."""
+"""``python -m soaklog.dashboard [--db PATH | CONFIG] [--run ID]``: the same command as ``soaklog dash``."""
 
 from __future__ import annotations
 
 import argparse
 import sys
 
-from daq.dashboard.cli import add_parser
-from daq.errors import SoaklogError
+from soaklog.dashboard.cli import add_parser
+from soaklog.errors import SoaklogError
 
 
 def main(argv: list[str] | None = None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m daq.dashboard")
+    parser = argparse.ArgumentParser(prog="python -m soaklog.dashboard")
     sub = parser.add_subparsers(dest="command")
     add_parser(sub)
     args = parser.parse_args(["dash", *(sys.argv[1:] if argv is None else argv)])

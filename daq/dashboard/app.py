@@ -21,7 +21,7 @@ from textual.binding import Binding, BindingType
 from textual.css.query import NoMatches
 from textual.worker import get_current_worker
 
-from daq.dashboard.records import (
+from soaklog.dashboard.records import (
     WINDOWS,
     ActionRow,
     EventRow,
@@ -29,7 +29,7 @@ from daq.dashboard.records import (
     TrendRequest,
     WindowName,
 )
-from daq.dashboard.screens import (
+from soaklog.dashboard.screens import (
     AlarmsView,
     GraphView,
     HelpView,
@@ -37,9 +37,9 @@ from daq.dashboard.screens import (
     ProbesView,
     View,
 )
-from daq.dashboard.source import StoreSource, default_actor, submit_operator_action
-from daq.dashboard.units import SYMBOL, Unit, next_unit
-from daq.errors import SoaklogError, StorageError
+from soaklog.dashboard.source import StoreSource, default_actor, submit_operator_action
+from soaklog.dashboard.units import SYMBOL, Unit, next_unit
+from soaklog.errors import SoaklogError, StorageError
 
 __all__ = ["DashboardApp", "SnapshotSource", "run_dashboard", "run_dashboard_live"]
 

@@ -1,6 +1,6 @@
 """Figures for the dashboard: its CPU share at a 1 Hz refresh on 32 channels, and opening a 1000-hour trend.
 
-Run ``python -m daq.dashboard.bench`` (or call the functions); these are
+Run ``python -m soaklog.dashboard.bench`` (or call the functions); these are
 measurements to report, not tests. The CPU figure runs the real app in a child
 process on a pseudo-terminal of the given size (Textual's own terminal driver
 drawing real output), while this process writes 32 readings a second into the
@@ -23,7 +23,7 @@ from typing import Any
 
 import numpy as np
 
-from daq.store import SampleBatch, Store
+from soaklog.store import SampleBatch, Store
 
 __all__ = ["bench_dashboard_cpu", "bench_trend_open", "build_long_run", "main"]
 
@@ -94,7 +94,7 @@ def build_long_run(path: str | Path, *, hours: float = 1000.0, n_channels: int =
 
 def _child(db: str, seconds: float, warm_s: float, view: str, out: str) -> None:
     """In the child: run the app on this terminal, measure CPU from ``warm_s`` to the end."""
-    from daq.dashboard.app import DashboardApp
+    from soaklog.dashboard.app import DashboardApp
 
     app = DashboardApp(db, start_view=view, refresh_s=1.0)
     if view == "graph":
@@ -149,7 +149,7 @@ def bench_dashboard_cpu(*, n_channels: int = 32, seconds: float = 20.0, warm_s: 
         master, slave = pty.openpty()
         fcntl.ioctl(slave, termios.TIOCSWINSZ, struct.pack("HHHH", size[1], size[0], 0, 0))
         env = dict(os.environ, TERM="xterm-256color", COLUMNS=str(size[0]), LINES=str(size[1]))
-        code = (f"from daq.dashboard.bench import _child; _child({db!r}, {seconds!r}, {warm_s!r}, {view!r}, "
+        code = (f"from soaklog.dashboard.bench import _child; _child({db!r}, {seconds!r}, {warm_s!r}, {view!r}, "
                 f"{out!r})")
         child = subprocess.Popen([sys.executable, "-c", code], stdin=slave, stdout=slave, stderr=slave, env=env,
                                  close_fds=True, start_new_session=True)
@@ -187,10 +187,10 @@ def bench_dashboard_cpu(*, n_channels: int = 32, seconds: float = 20.0, warm_s: 
 def bench_trend_open(*, hours: float = 1000.0, n_channels: int = 32, size: tuple[int, int] = (160, 50),
                      repeats: int = 3) -> dict[str, Any]:
     """Opening a ``hours``-long run's whole-run trend: the reader's first read, and the app until it is drawn."""
-    from daq.dashboard.app import DashboardApp
-    from daq.dashboard.records import TrendRequest
-    from daq.dashboard.source import StoreSource
-    from daq.dashboard.widgets import TrendPanel
+    from soaklog.dashboard.app import DashboardApp
+    from soaklog.dashboard.records import TrendRequest
+    from soaklog.dashboard.source import StoreSource
+    from soaklog.dashboard.widgets import TrendPanel
 
     with tempfile.TemporaryDirectory(prefix="soaklog-dash-bench-") as tmp:
         db = str(Path(tmp) / "long.db")
@@ -234,7 +234,7 @@ def bench_trend_open(*, hours: float = 1000.0, n_channels: int = 32, size: tuple
 
 
 def main(argv: list[str] | None = None) -> int:
-    """``python -m daq.dashboard.bench [--quick]``: print the figures as JSON."""
+    """``python -m soaklog.dashboard.bench [--quick]``: print the figures as JSON."""
     args = sys.argv[1:] if argv is None else argv
     quick = "--quick" in args
     result: dict[str, Any] = {}

@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 from typing import Any
 
-from daq.cliargs import DEFAULT_DB, db_path
+from soaklog.cliargs import DEFAULT_DB, db_path
 
 __all__ = ["DEFAULT_DB", "add_parser"]
 
@@ -34,6 +34,6 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
 
 
 def _cmd_dash(args: argparse.Namespace) -> int:
-    from daq.dashboard.app import run_dashboard
+    from soaklog.dashboard.app import run_dashboard
 
     return run_dashboard(db_path(args), run_id=args.run)

@@ -8,9 +8,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from daq.dashboard.plan import RunPlan
-from daq.dashboard.records import ChannelRow, Snapshot
-from daq.dashboard.units import fmt_age
+from soaklog.dashboard.plan import RunPlan
+from soaklog.dashboard.records import ChannelRow, Snapshot
+from soaklog.dashboard.units import fmt_age
 
 __all__ = ["MARK", "Condition", "Verdict", "alarmed_channels", "channel_condition", "run_state", "stale_after_s", "verdict"]
 

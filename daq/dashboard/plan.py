@@ -19,8 +19,8 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
-from daq.config import parse_duration
-from daq.errors import InputError
+from soaklog.config import parse_duration
+from soaklog.errors import InputError
 
 __all__ = ["Limit", "PlannedProfile", "RunPlan", "planned_profile", "run_plan"]
 

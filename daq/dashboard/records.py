@@ -9,7 +9,7 @@ from typing import Any, Literal
 import numpy as np
 import numpy.typing as npt
 
-from daq.dashboard.plan import RunPlan
+from soaklog.dashboard.plan import RunPlan
 
 __all__ = [
     "ALARM_STATE_ORDER",

@@ -15,9 +15,9 @@ from textual.screen import ModalScreen, Screen
 from textual.widgets import DataTable, Input, OptionList, Static
 from textual.widgets.option_list import Option
 
-from daq.dashboard.records import WINDOW_TITLE, Snapshot, TrendRequest
-from daq.dashboard.table import LiveTable
-from daq.dashboard.widgets import (
+from soaklog.dashboard.records import WINDOW_TITLE, Snapshot, TrendRequest
+from soaklog.dashboard.table import LiveTable
+from soaklog.dashboard.widgets import (
     SAFETY_CAUTION,
     AlarmBoard,
     CautionLine,
@@ -33,7 +33,7 @@ from daq.dashboard.widgets import (
 )
 
 if TYPE_CHECKING:
-    from daq.dashboard.app import DashboardApp
+    from soaklog.dashboard.app import DashboardApp
 
 __all__ = [
     "GLOBAL_KEYS",

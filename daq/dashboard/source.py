@@ -22,8 +22,8 @@ from typing import Any
 
 import numpy as np
 
-from daq.dashboard.plan import RunPlan, run_plan
-from daq.dashboard.records import (
+from soaklog.dashboard.plan import RunPlan, run_plan
+from soaklog.dashboard.records import (
     WINDOW_S,
     ActionRow,
     AlarmRow,
@@ -36,9 +36,9 @@ from daq.dashboard.records import (
     TrendSeries,
     order_alarms,
 )
-from daq.dashboard.units import parse_utc_ms
-from daq.errors import StorageError
-from daq.store import Store
+from soaklog.dashboard.units import parse_utc_ms
+from soaklog.errors import StorageError
+from soaklog.store import Store
 
 __all__ = ["RATE_WINDOW_S", "StoreSource", "default_actor", "submit_operator_action"]
 

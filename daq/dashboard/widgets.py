@@ -14,16 +14,16 @@ from textual.widget import Widget
 from textual.widgets import DataTable, OptionList, Static
 from textual.widgets.option_list import Option
 
-from daq.dashboard.derive import (
+from soaklog.dashboard.derive import (
     MARK,
     alarmed_channels,
     channel_condition,
     run_state,
     verdict,
 )
-from daq.dashboard.plan import RunPlan
-from daq.dashboard.plot import PlotLevel, PlotSeries, render_plot
-from daq.dashboard.records import (
+from soaklog.dashboard.plan import RunPlan
+from soaklog.dashboard.plot import PlotLevel, PlotSeries, render_plot
+from soaklog.dashboard.records import (
     WINDOW_TITLE,
     ActionRow,
     AlarmRow,
@@ -34,8 +34,8 @@ from daq.dashboard.records import (
     TrendSeries,
     WindowName,
 )
-from daq.dashboard.table import LiveTable
-from daq.dashboard.units import (
+from soaklog.dashboard.table import LiveTable
+from soaklog.dashboard.units import (
     DIFFERENCE_SYMBOL,
     SYMBOL,
     Unit,
@@ -411,7 +411,7 @@ class TrendPanel(Widget):
         else:
             series = self._plot_series()
             levels = self._levels()
-            from daq.dashboard.plot import y_limits
+            from soaklog.dashboard.plot import y_limits
 
             data_only = [s for s in series if not s.dotted]
             rng = y_limits(series, levels) if self.fit_all else y_limits(data_only)

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from daq.report.build import ReportResult, load_profile_file, make_report
-from daq.report.profile import Band, CycleProfile, Profile, SoakProfile, parse_profile
+from soaklog.report.build import ReportResult, load_profile_file, make_report
+from soaklog.report.profile import Band, CycleProfile, Profile, SoakProfile, parse_profile
 
 __all__ = [
     "Band",

@@ -45,8 +45,8 @@ def _profile_text() -> str:
 
 
 def _build(db: str, n_channels: int, hours: float, seed: int) -> tuple[int, int]:
-    from daq.bench import _station_text
-    from daq.store import SampleBatch, Store
+    from soaklog.bench import _station_text
+    from soaklog.store import SampleBatch, Store
 
     rng = np.random.default_rng(seed)
     store = Store.open(db)
@@ -95,7 +95,7 @@ def bench_report(n_channels: int = 32, hours: float = 1000.0, seed: int = 5, *, 
     per hour where this store has 60, which the report reads only to time its
     first excursions again, a one-minute window each).
     """
-    from daq.report import make_report
+    from soaklog.report import make_report
 
     with tempfile.TemporaryDirectory(prefix="soaklog-bench-report-") as tmp:
         db = str(Path(tmp) / "report.db")

@@ -16,16 +16,16 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from daq import __version__
-from daq.errors import InputError
-from daq.report import plots
-from daq.report.alarmlog import alarm_episodes, alarm_rates
-from daq.report.conformance import Conformance, analyse
-from daq.report.data import RunData, load_run
-from daq.report.performance import Performance
-from daq.report.profile import CycleProfile, Profile, parse_profile, profile_channels
-from daq.report.render import render_html
-from daq.report.tables import (
+from soaklog import __version__
+from soaklog.errors import InputError
+from soaklog.report import plots
+from soaklog.report.alarmlog import alarm_episodes, alarm_rates
+from soaklog.report.conformance import Conformance, analyse
+from soaklog.report.data import RunData, load_run
+from soaklog.report.performance import Performance
+from soaklog.report.profile import CycleProfile, Profile, parse_profile, profile_channels
+from soaklog.report.render import render_html
+from soaklog.report.tables import (
     MAX_REFINED,
     TABLE_COLUMNS,
     alarm_tables,
@@ -42,7 +42,7 @@ from daq.report.tables import (
     u_at_test,
     utc,
 )
-from daq.store import Store, iso_utc
+from soaklog.store import Store, iso_utc
 
 __all__ = ["TABLE_COLUMNS", "ReportResult", "load_profile_file", "make_report"]
 

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from daq.report.series import FloatArray, Series, true_runs
+from soaklog.report.series import FloatArray, Series, true_runs
 
 __all__ = [
     "Beyond",

@@ -7,7 +7,7 @@ import sys
 from collections.abc import Callable
 from typing import IO
 
-from daq.cliargs import DEFAULT_DB, db_path
+from soaklog.cliargs import DEFAULT_DB, db_path
 
 __all__ = ["DEFAULT_DB", "DEFAULT_OUT", "add_parser", "cmd_report", "terminal_progress"]
 
@@ -68,7 +68,7 @@ def terminal_progress(stream: IO[str] = sys.stderr) -> Callable[[int, int, str],
 
 def cmd_report(args: argparse.Namespace) -> int:
     """Run ``soaklog report``; prints what was written and the verdict."""
-    from daq.report.build import make_report
+    from soaklog.report.build import make_report
 
     result = make_report(
         db_path(args), run_id=args.run, profile=args.profile, out_dir=args.out,

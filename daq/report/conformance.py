@@ -45,8 +45,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import numpy.typing as npt
 
-from daq.report.profile import Band, CycleProfile, Profile, SoakProfile
-from daq.report.series import (
+from soaklog.report.profile import Band, CycleProfile, Profile, SoakProfile
+from soaklog.report.series import (
     FloatArray,
     Series,
     crossing_time,

@@ -18,11 +18,11 @@ from typing import Any
 
 import numpy as np
 
-from daq.config import ConfigProblems, StationConfig, parse_config
-from daq.errors import InputError
-from daq.report.channels import combine_moments, exact_moments
-from daq.report.series import Series, bucketize
-from daq.store import ChannelInfo, Store
+from soaklog.config import ConfigProblems, StationConfig, parse_config
+from soaklog.errors import InputError
+from soaklog.report.channels import combine_moments, exact_moments
+from soaklog.report.series import Series, bucketize
+from soaklog.store import ChannelInfo, Store
 
 __all__ = ["RAW_LIMIT", "ROLLUP_WIDTH_S", "ChannelData", "RunData", "load_run", "refine_end", "refine_start"]
 

@@ -38,7 +38,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from daq.report.series import FloatArray, Series, rolling_max, rolling_min, true_runs
+from soaklog.report.series import FloatArray, Series, rolling_max, rolling_min, true_runs
 
 __all__ = ["Performance", "StablePeriod", "chamber_performance", "stable_mask", "stable_period"]
 

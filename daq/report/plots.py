@@ -14,9 +14,9 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
-from daq.report.conformance import Conformance
-from daq.report.profile import Band, CycleProfile, SoakProfile
-from daq.report.series import FloatArray, Series, nan_mean_rows
+from soaklog.report.conformance import Conformance
+from soaklog.report.profile import Band, CycleProfile, SoakProfile
+from soaklog.report.series import FloatArray, Series, nan_mean_rows
 
 __all__ = ["MAX_PLOT_POINTS", "by_cycle_png", "closeups_png", "cycle_overlay_png", "overview_png", "spread_png"]
 

@@ -43,8 +43,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, Literal
 
-from daq.config import parse_duration
-from daq.errors import InputError
+from soaklog.config import parse_duration
+from soaklog.errors import InputError
 
 __all__ = ["PROFILE_KEYS", "Band", "CycleProfile", "Profile", "SoakProfile", "parse_profile", "profile_channels"]
 

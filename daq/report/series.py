@@ -18,7 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import InputError
+from soaklog.errors import InputError
 
 __all__ = [
     "Series",

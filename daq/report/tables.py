@@ -14,18 +14,18 @@ from typing import Any
 
 import numpy as np
 
-from daq.report.alarmlog import ALARM_KINDS, AlarmRates, Episode
-from daq.report.channels import channel_gaps, completeness, merge_gaps, time_beyond
-from daq.report.conformance import Conformance, Deviation, deviation_summary
-from daq.report.data import RunData, refine_end, refine_start
-from daq.report.performance import (
+from soaklog.report.alarmlog import ALARM_KINDS, AlarmRates, Episode
+from soaklog.report.channels import channel_gaps, completeness, merge_gaps, time_beyond
+from soaklog.report.conformance import Conformance, Deviation, deviation_summary
+from soaklog.report.data import RunData, refine_end, refine_start
+from soaklog.report.performance import (
     Performance,
     chamber_performance,
     stable_mask,
     stable_period,
 )
-from daq.report.profile import CycleProfile, Profile, SoakProfile
-from daq.store import Store, iso_utc
+from soaklog.report.profile import CycleProfile, Profile, SoakProfile
+from soaklog.store import Store, iso_utc
 
 __all__ = [
     "GAP_CAUSES",
@@ -205,7 +205,7 @@ def u_at_test(run: RunData, profile: Profile | None) -> dict[str, float | None]:
     cfg = run.config
     if cfg is None or not temps:
         return {}
-    from daq.status import check_report
+    from soaklog.status import check_report
 
     try:
         rep = check_report(cfg)

@@ -5,10 +5,10 @@ No I/O and no clock here; arrays in, arrays out, flags beside them.
 
 from __future__ import annotations
 
-from daq.sensors.cvd import IEC_60751, CvdCurve, resistance, slope, temperature
-from daq.sensors.flags import Flag, flag_names
-from daq.sensors.leads import Conductor, Leads
-from daq.sensors.measurement import (
+from soaklog.sensors.cvd import IEC_60751, CvdCurve, resistance, slope, temperature
+from soaklog.sensors.flags import Flag, flag_names
+from soaklog.sensors.leads import Conductor, Leads
+from soaklog.sensors.measurement import (
     AdcSpec,
     Calibration,
     Conversion,
@@ -17,8 +17,8 @@ from daq.sensors.measurement import (
     MeterSpec,
     SensorSpec,
 )
-from daq.sensors.tolerance import ToleranceClass, tolerance_class
-from daq.sensors.uncertainty import Budget, Contribution
+from soaklog.sensors.tolerance import ToleranceClass, tolerance_class
+from soaklog.sensors.uncertainty import Budget, Contribution
 
 __all__ = [
     "AdcSpec",

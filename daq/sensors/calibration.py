@@ -23,9 +23,9 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import CalibrationError
-from daq.sensors.cvd import IEC_60751, CvdCurve, resistance, slope
-from daq.sensors.flags import FLAG_DTYPE, Flag
+from soaklog.errors import CalibrationError
+from soaklog.sensors.cvd import IEC_60751, CvdCurve, resistance, slope
+from soaklog.sensors.flags import FLAG_DTYPE, Flag
 
 __all__ = ["CalibrationFit", "fit_cvd"]
 

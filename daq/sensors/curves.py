@@ -11,8 +11,8 @@ gives its stated α to the stated digits and its published R(100 °C)
 
 from __future__ import annotations
 
-from daq.errors import InputError
-from daq.sensors.cvd import IEC_60751, CvdCurve
+from soaklog.errors import InputError
+from soaklog.sensors.cvd import IEC_60751, CvdCurve
 
 __all__ = ["NAMED_CURVES", "CURVE_DESCRIPTIONS", "named_curve", "curve_names"]
 

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from daq.sensors.flags import FLAG_DTYPE, Flag
+from soaklog.sensors.flags import FLAG_DTYPE, Flag
 
 __all__ = ["CvdCurve", "IEC_60751", "resistance", "temperature", "slope"]
 

@@ -30,8 +30,8 @@ from typing import Literal
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import InputError
-from daq.sensors.flags import FLAG_DTYPE, Flag
+from soaklog.errors import InputError
+from soaklog.sensors.flags import FLAG_DTYPE, Flag
 
 __all__ = [
     "COPPER_RESISTIVITY_20C_OHM_MM2_PER_M",

@@ -19,13 +19,13 @@ from dataclasses import dataclass, field
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import InputError
-from daq.sensors import selfheating
-from daq.sensors.cvd import IEC_60751, CvdCurve, slope, temperature
-from daq.sensors.flags import FLAG_DTYPE, Flag
-from daq.sensors.leads import Leads
-from daq.sensors.tolerance import ToleranceClass
-from daq.sensors.uncertainty import Budget, Contribution, combine, normal, rectangular
+from soaklog.errors import InputError
+from soaklog.sensors import selfheating
+from soaklog.sensors.cvd import IEC_60751, CvdCurve, slope, temperature
+from soaklog.sensors.flags import FLAG_DTYPE, Flag
+from soaklog.sensors.leads import Leads
+from soaklog.sensors.tolerance import ToleranceClass
+from soaklog.sensors.uncertainty import Budget, Contribution, combine, normal, rectangular
 
 __all__ = [
     "SensorSpec",

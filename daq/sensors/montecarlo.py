@@ -26,9 +26,9 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import InputError
-from daq.sensors.cvd import IEC_60751, CvdCurve, resistance, slope, temperature
-from daq.sensors.tolerance import ToleranceClass
+from soaklog.errors import InputError
+from soaklog.sensors.cvd import IEC_60751, CvdCurve, resistance, slope, temperature
+from soaklog.sensors.tolerance import ToleranceClass
 
 __all__ = [
     "DeviationHalfWidths",

@@ -23,8 +23,8 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import CalibrationError, InputError
-from daq.sensors.flags import FLAG_DTYPE, Flag
+from soaklog.errors import CalibrationError, InputError
+from soaklog.sensors.flags import FLAG_DTYPE, Flag
 
 __all__ = ["KELVIN_OFFSET", "SteinhartHart", "BetaNtc", "fit_steinhart_hart"]
 

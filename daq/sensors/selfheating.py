@@ -19,7 +19,7 @@ from __future__ import annotations
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import CalibrationError, InputError
+from soaklog.errors import CalibrationError, InputError
 
 __all__ = [
     "power_w",

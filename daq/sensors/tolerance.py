@@ -14,7 +14,7 @@ from typing import Literal
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import InputError
+from soaklog.errors import InputError
 
 __all__ = ["ToleranceClass", "TOLERANCE_CLASSES", "tolerance_class", "class_names"]
 

@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-from daq.store.core import Store
-from daq.store.records import ChannelInfo, RunInfo, SampleBatch, config_digest
-from daq.store.schema import SCHEMA_VERSION, STATUS_CODES, TEMP_SCALE, U_SCALE, iso_utc, status_code, status_name
+from soaklog.store.core import Store
+from soaklog.store.records import ChannelInfo, RunInfo, SampleBatch, config_digest
+from soaklog.store.schema import SCHEMA_VERSION, STATUS_CODES, TEMP_SCALE, U_SCALE, iso_utc, status_code, status_name
 
 __all__ = [
     "SCHEMA_VERSION",

@@ -14,8 +14,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from daq.errors import StorageError
-from daq.store.schema import iso_utc
+from soaklog.errors import StorageError
+from soaklog.store.schema import iso_utc
 
 __all__ = ["AlarmStoreMixin", "AlarmRow", "EventRow"]
 

@@ -32,12 +32,12 @@ from pathlib import Path
 
 import sqlite_utils
 
-from daq.errors import StorageError
+from soaklog.errors import StorageError
 
-from daq.store.alarms import AlarmStoreMixin
-from daq.store.reader import ReadingMixin
-from daq.store.schema import MIGRATIONS, SCHEMA_VERSION, STATUS_CODES, statements
-from daq.store.writer import WritingMixin
+from soaklog.store.alarms import AlarmStoreMixin
+from soaklog.store.reader import ReadingMixin
+from soaklog.store.schema import MIGRATIONS, SCHEMA_VERSION, STATUS_CODES, statements
+from soaklog.store.writer import WritingMixin
 
 __all__ = ["Store"]
 

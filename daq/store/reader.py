@@ -16,9 +16,9 @@ import numpy as np
 import numpy.typing as npt
 import sqlite_utils
 
-from daq.errors import StorageError
+from soaklog.errors import StorageError
 
-from daq.store.schema import TEMP_SCALE, U_SCALE, iso_utc, status_name
+from soaklog.store.schema import TEMP_SCALE, U_SCALE, iso_utc, status_name
 
 __all__ = ["ReadingMixin"]
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from datetime import UTC, datetime
 
-from daq.errors import StorageError
+from soaklog.errors import StorageError
 
 __all__ = ["STATUS_CODES", "TEMP_SCALE", "U_SCALE", "MIGRATIONS", "SCHEMA_VERSION", "status_code", "status_name", "iso_utc", "statements"]
 

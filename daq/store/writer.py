@@ -10,10 +10,10 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
-from daq.errors import StorageError
+from soaklog.errors import StorageError
 
-from daq.store.records import BATCH_FIELDS, ChannelInfo, RunInfo, SampleBatch, config_digest
-from daq.store.schema import TEMP_SCALE, U_SCALE, iso_utc
+from soaklog.store.records import BATCH_FIELDS, ChannelInfo, RunInfo, SampleBatch, config_digest
+from soaklog.store.schema import TEMP_SCALE, U_SCALE, iso_utc
 
 __all__ = ["WritingMixin"]
 

@@ -6,11 +6,11 @@ import time
 from collections.abc import Callable
 from pathlib import Path
 
-from daq.clock import AcceleratedClock
-from daq.demo import build_demo_config
-from daq.service import Service
-from daq.store import Store
-from simulators.lab import Lab
+from soaklog.clock import AcceleratedClock
+from soaklog.demo import build_demo_config
+from soaklog.service import Service
+from soaklog.store import Store
+from soaklog.simulators.lab import Lab
 
 EPOCH_UTC_S = 1_800_000_000.0
 

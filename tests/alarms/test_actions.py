@@ -18,9 +18,9 @@ from pathlib import Path
 import pytest
 import serial
 
-from daq.actions import MAX_QUEUED, ActionRunner, action_environment, run_program, send_scpi
-from daq.config import ActionConfig
-from simulators.supply import SupplySimulator
+from soaklog.actions import MAX_QUEUED, ActionRunner, action_environment, run_program, send_scpi
+from soaklog.config import ActionConfig
+from soaklog.simulators.supply import SupplySimulator
 
 FIELDS = {"event": "alarm_raised", "alarm": "trip:air-supply", "rule": "trip", "channel": "air-supply",
           "state": "unacknowledged", "severity": "critical", "message": "air-supply 141.00 °C above 140.00 °C",

@@ -8,9 +8,9 @@ import sys
 
 import pytest
 
-import daq.alarms_cli as acli
-from daq.config import parse_config
-from simulators.supply import SupplySimulator
+import soaklog.alarms_cli as acli
+from soaklog.config import parse_config
+from soaklog.simulators.supply import SupplySimulator
 
 
 class Switch:
@@ -80,16 +80,16 @@ def test_the_ack_parser_has_help_and_a_description():
     (["--all", "--db", "missing.db"], 1, "no database at missing.db"),
 ])
 def test_ack_errors_exit_with_the_contract_status_and_a_message(tmp_path, argv, status, message):
-    p = subprocess.run([sys.executable, "-m", "daq.alarms_cli", "ack", *argv], capture_output=True, text=True,
+    p = subprocess.run([sys.executable, "-m", "soaklog.alarms_cli", "ack", *argv], capture_output=True, text=True,
                        timeout=60, cwd=tmp_path)
     assert p.returncode == status and message in p.stderr
 
 
 def test_soaklog_ack_is_the_same_command_once_the_cli_has_it():
-    from daq.cli import build_parser
+    from soaklog.cli import build_parser
 
     sub = next(a for a in build_parser()._actions if isinstance(a, argparse._SubParsersAction))
     if "ack" not in sub.choices:
         pytest.skip("daq/cli.py does not add `ack` yet (add_ack_parser)")
-    p = subprocess.run([sys.executable, "-m", "daq", "ack", "--help"], capture_output=True, text=True, timeout=60)
+    p = subprocess.run([sys.executable, "-m", "soaklog", "ack", "--help"], capture_output=True, text=True, timeout=60)
     assert p.returncode == 0 and "--all" in p.stdout and "--note" in p.stdout

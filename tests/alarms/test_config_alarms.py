@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from daq.alarms import KIND_DEFAULTS, AlarmEngine, Rule
-from daq.config import ConfigProblems, parse_config
+from soaklog.alarms import KIND_DEFAULTS, AlarmEngine, Rule
+from soaklog.config import ConfigProblems, parse_config
 
 STATION = (
     '[station]\nname = "lab"\n'
@@ -155,7 +155,7 @@ def test_every_problem_of_several_alarms_at_once():
 
 
 def test_the_reading_statuses_known_to_alarms_are_the_stores():
-    from daq.config import _READING_STATUSES
-    from daq.store import STATUS_CODES
+    from soaklog.config import _READING_STATUSES
+    from soaklog.store import STATUS_CODES
 
     assert _READING_STATUSES == set(STATUS_CODES)

@@ -5,9 +5,9 @@ from __future__ import annotations
 
 import threading
 
-import daq.demo as demo
-from daq.demo import DEFAULT_SPEED, run_demo
-from daq.store import Store
+import soaklog.demo as demo
+from soaklog.demo import DEFAULT_SPEED, run_demo
+from soaklog.store import Store
 
 
 def test_the_demo_runaway_trips_interlocks_and_recovers(tmp_path):

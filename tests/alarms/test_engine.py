@@ -16,7 +16,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from daq.alarms import (
+from soaklog.alarms import (
     ACTIVE_STATES,
     KIND_DEFAULTS,
     MAX_SHELVE_S,

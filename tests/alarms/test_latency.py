@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-import daq.alarms_cli as acli
+import soaklog.alarms_cli as acli
 
 
 @pytest.mark.measurement

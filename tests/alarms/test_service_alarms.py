@@ -8,14 +8,14 @@ import sys
 
 from alarmlab import EPOCH_UTC_S, wait_for
 
-from daq.store import Store
+from soaklog.store import Store
 
 TRIP = "air-over-temperature-trip"
 HIGH = "air-over-temperature"
 
 
 def ack_cli(*args: str, timeout: float = 60) -> subprocess.CompletedProcess[str]:
-    return subprocess.run([sys.executable, "-m", "daq.alarms_cli", "ack", *args], capture_output=True, text=True,
+    return subprocess.run([sys.executable, "-m", "soaklog.alarms_cli", "ack", *args], capture_output=True, text=True,
                           timeout=timeout)
 
 

@@ -7,9 +7,9 @@ from dataclasses import replace
 
 import pytest
 
-from daq.errors import StorageError
-from daq.store import Store
-from daq.store.alarms import AlarmRow, EventRow
+from soaklog.errors import StorageError
+from soaklog.store import Store
+from soaklog.store.alarms import AlarmRow, EventRow
 
 CONTRACT = {"id", "rule", "channel", "state", "severity", "message", "since_utc", "acked", "shelved_until_utc"}
 
@@ -22,7 +22,7 @@ def _store(tmp_path):
 
 
 def test_a_schema_3_file_gets_the_alarm_table_and_reads_no_alarms(tmp_path):
-    from daq.store.schema import MIGRATIONS, statements
+    from soaklog.store.schema import MIGRATIONS, statements
 
     p = tmp_path / "old.db"
     conn = sqlite3.connect(p, isolation_level=None)

@@ -5,10 +5,10 @@ from __future__ import annotations
 import pytest
 import pyvisa
 
-from simulators.clock import ManualClock
-from simulators.lab import Lab
-from simulators.supply import MAKER, MODEL, SupplySimulator
-from simulators.world import demo_world
+from soaklog.simulators.clock import ManualClock
+from soaklog.simulators.lab import Lab
+from soaklog.simulators.supply import MAKER, MODEL, SupplySimulator
+from soaklog.simulators.world import demo_world
 
 
 @pytest.fixture

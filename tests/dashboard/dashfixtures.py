@@ -13,8 +13,8 @@ import numpy as np
 from rich.console import Console
 from textual.app import App
 
-from daq.store import SampleBatch, Store, status_code
-from daq.store.alarms import AlarmRow as StoredAlarm
+from soaklog.store import SampleBatch, Store, status_code
+from soaklog.store.alarms import AlarmRow as StoredAlarm
 
 #: 2027-01-15T08:00:00Z, the fixture run's start
 START_MS = 1_800_000_000_000
@@ -165,10 +165,10 @@ class LabRun:
     EPOCH_UTC_S = 1_800_000_000.0
 
     def __init__(self, tmp_path: Path, speed: float = 30.0) -> None:
-        from daq.clock import AcceleratedClock
-        from daq.demo import build_demo_config
-        from daq.service import Service
-        from simulators.lab import Lab
+        from soaklog.clock import AcceleratedClock
+        from soaklog.demo import build_demo_config
+        from soaklog.service import Service
+        from soaklog.simulators.lab import Lab
 
         self.lab = Lab(speed=speed, board_link=str(tmp_path / "board"), control_port=None).start()
         addr = self.lab.addresses()

@@ -8,8 +8,8 @@ import threading
 import pytest
 from dashfixtures import NOW_MS, START_MS, frozen_clock, screen_text, wait_until
 
-from daq.dashboard.app import DashboardApp
-from daq.dashboard.screens import (
+from soaklog.dashboard.app import DashboardApp
+from soaklog.dashboard.screens import (
     GLOBAL_KEYS,
     VIEW_KEYS,
     AlarmsView,
@@ -17,14 +17,14 @@ from daq.dashboard.screens import (
     InstrumentsView,
     ProbesView,
 )
-from daq.dashboard.widgets import (
+from soaklog.dashboard.widgets import (
     AlarmBoard,
     ChannelBoard,
     InstrumentBoard,
     RequestLine,
     TrendPanel,
 )
-from daq.store import Store
+from soaklog.store import Store
 
 
 def _app(db, **kw):

@@ -7,9 +7,9 @@ import sqlite3
 import pytest
 from dashfixtures import wait_for, wait_until
 
-from daq.dashboard.app import DashboardApp
-from daq.dashboard.widgets import AlarmBoard, ChannelBoard, RequestLine
-from daq.store import Store
+from soaklog.dashboard.app import DashboardApp
+from soaklog.dashboard.widgets import AlarmBoard, ChannelBoard, RequestLine
+from soaklog.store import Store
 
 
 def _all_channels_read(db: str, n: int) -> bool:

@@ -7,9 +7,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from daq.dashboard.plan import planned_profile, run_plan
-from daq.demo import demo_config_text
-from simulators.profiles import Cycle
+from soaklog.dashboard.plan import planned_profile, run_plan
+from soaklog.demo import demo_config_text
+from soaklog.simulators.profiles import Cycle
 
 DEMO_PROFILE = {"kind": "cycle", "low_c": -40.0, "high_c": 125.0, "ramp_k_per_min": 10.0, "dwell": "15min",
                 "cycles": 1000}

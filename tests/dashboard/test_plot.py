@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from daq.dashboard.plot import (
+from soaklog.dashboard.plot import (
     BRAILLE_BASE,
     PlotLevel,
     PlotSeries,

@@ -17,8 +17,8 @@ from pathlib import Path
 import pytest
 from dashfixtures import frozen_clock, screen_text, wait_until
 
-from daq.dashboard.app import DashboardApp
-from daq.dashboard.widgets import TrendPanel
+from soaklog.dashboard.app import DashboardApp
+from soaklog.dashboard.widgets import TrendPanel
 
 SNAPSHOTS = Path(__file__).with_name("snapshots")
 UPDATE = os.environ.get("SOAKLOG_UPDATE_SNAPSHOTS") == "1"

@@ -16,10 +16,10 @@ from dashfixtures import (
     frozen_clock,
 )
 
-from daq.dashboard.records import TrendRequest
-from daq.dashboard.source import StoreSource, submit_operator_action
-from daq.errors import StorageError
-from daq.store import SampleBatch, Store
+from soaklog.dashboard.records import TrendRequest
+from soaklog.dashboard.source import StoreSource, submit_operator_action
+from soaklog.errors import StorageError
+from soaklog.store import SampleBatch, Store
 
 
 def _view_latest(db, run_id=1):

@@ -12,19 +12,19 @@ from pathlib import Path
 
 import pytest
 
-from daq.store import Store
+from soaklog.store import Store
 
 pytestmark = pytest.mark.skipif(shutil.which("tmux") is None, reason="tmux is not installed")
 
 
 def _dash_command(db: Path) -> list[str]:
-    """``python -m daq dash`` once the CLI has it; until then the same parser through the package."""
-    from daq.cli import build_parser
+    """``python -m soaklog dash`` once the CLI has it; until then the same parser through the package."""
+    from soaklog.cli import build_parser
 
     sub = next(a for a in build_parser()._actions if a.dest == "command")
     if "dash" in sub.choices:  # type: ignore[operator]
-        return [sys.executable, "-m", "daq", "dash", "--db", str(db)]
-    return [sys.executable, "-m", "daq.dashboard", "--db", str(db)]
+        return [sys.executable, "-m", "soaklog", "dash", "--db", str(db)]
+    return [sys.executable, "-m", "soaklog.dashboard", "--db", str(db)]
 
 
 class Tmux:
@@ -102,7 +102,7 @@ import logging, sys, threading, time
 from pathlib import Path
 sys.path.insert(0, {fixtures!r})
 from dashfixtures import LabRun
-from daq.dashboard import run_dashboard_live
+from soaklog.dashboard import run_dashboard_live
 
 # a handler on a stream of our own, as a terminal's would be: held while the dashboard runs
 logging.basicConfig(level=logging.INFO, stream=open({log!r}, "w", buffering=1), format="%(levelname)s %(message)s")

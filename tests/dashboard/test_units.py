@@ -9,7 +9,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from daq.dashboard.units import (
+from soaklog.dashboard.units import (
     UNITS,
     difference_to_unit,
     fmt_age,

@@ -8,9 +8,9 @@ from collections.abc import Callable, Iterator, Mapping
 import pytest
 from drivertools import BACKOFF, CHANNELS, LEAD_OHM, SCAN_MAP, SCAN_VALUES, TIMEOUT_S, ManualClock
 
-from drivers.scpi_meter import ScpiMeter
-from simulators.dmm import DmmSimulator
-from simulators.plant import FixedPlant
+from soaklog.drivers.scpi_meter import ScpiMeter
+from soaklog.simulators.dmm import DmmSimulator
+from soaklog.simulators.plant import FixedPlant
 
 
 @pytest.fixture

@@ -5,7 +5,7 @@ from __future__ import annotations
 import time
 from collections.abc import Callable
 
-from drivers.scpi_meter import Backoff
+from soaklog.drivers.scpi_meter import Backoff
 
 #: one conductor's resistance; the plant adds it twice in 2-wire mode
 LEAD_OHM = 0.25

@@ -8,9 +8,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-import drivers.adcframe as adcframe
-from daq.errors import InputError
-from drivers.adcframe import (
+import soaklog.drivers.adcframe as adcframe
+from soaklog.errors import InputError
+from soaklog.drivers.adcframe import (
     MAX_CHANNELS,
     MAX_LINE_BYTES,
     Command,

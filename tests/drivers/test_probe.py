@@ -15,9 +15,9 @@ import pytest
 import pyvisa
 from drivertools import CHANNELS, LEAD_OHM, SCAN_MAP, SCAN_VALUES
 
-from drivers.probe import FRONT, ProbeResult, format_probe, probe
-from simulators.dmm import DmmSimulator
-from simulators.plant import OPEN_OHM, FixedPlant
+from soaklog.drivers.probe import FRONT, ProbeResult, format_probe, probe
+from soaklog.simulators.dmm import DmmSimulator
+from soaklog.simulators.plant import OPEN_OHM, FixedPlant
 
 StartSim = Callable[..., DmmSimulator]
 YAML = Path(__file__).with_name("meter.yaml")

@@ -18,14 +18,14 @@ from pathlib import Path
 
 import pytest
 
-from daq.clock import SystemClock
-from daq.config import InstrumentConfig
-from daq.errors import ConfigError, ConnectionLost, InputError, InstrumentError
-from drivers.base import Health
-from drivers.bench import bench_driver_overhead
-from drivers.scpi_meter import PROFILES, Backoff, ScpiMeter, _stream_state
-from simulators.dmm import TEST_CURRENT_A, DmmSimulator
-from simulators.plant import OPEN_OHM, FixedPlant, Terminal
+from soaklog.clock import SystemClock
+from soaklog.config import InstrumentConfig
+from soaklog.errors import ConfigError, ConnectionLost, InputError, InstrumentError
+from soaklog.drivers.base import Health
+from soaklog.drivers.bench import bench_driver_overhead
+from soaklog.drivers.scpi_meter import PROFILES, Backoff, ScpiMeter, _stream_state
+from soaklog.simulators.dmm import TEST_CURRENT_A, DmmSimulator
+from soaklog.simulators.plant import OPEN_OHM, FixedPlant, Terminal
 
 from drivertools import BACKOFF, CHANNELS, LEAD_OHM, SCAN_MAP, SCAN_VALUES, TIMEOUT_S, ManualClock, wait_for
 

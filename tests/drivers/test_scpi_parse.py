@@ -13,9 +13,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from daq.errors import InputError
-from drivers.base import STATUSES
-from drivers.scpi_meter import (
+from soaklog.errors import InputError
+from soaklog.drivers.base import STATUSES
+from soaklog.drivers.scpi_meter import (
     PROFILES,
     Backoff,
     MeterProfile,

@@ -10,9 +10,9 @@ from drivertools import LEAD_OHM
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from drivers.base import RawScan
-from drivers.scpi_meter import parse_reply, parse_scan
-from simulators.plant import FixedPlant
+from soaklog.drivers.base import RawScan
+from soaklog.drivers.scpi_meter import parse_reply, parse_scan
+from soaklog.simulators.plant import FixedPlant
 
 CH = ("101", "102", "103")
 

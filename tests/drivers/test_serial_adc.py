@@ -15,14 +15,14 @@ import serial
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from daq.clock import SystemClock
-from daq.config import InstrumentConfig
-from daq.errors import ConfigError, ConnectionLost, InputError, InstrumentTimeout
-from drivers.base import STATUSES, RawReading
-from drivers.serial_adc import AdcStream, SerialAdc
-from simulators.adc import MAKER, MODEL, AdcBoardSimulator
-from drivers.adcframe import Frame, encode_command, encode_frame
-from simulators.plant import OPEN_OHM, FixedPlant
+from soaklog.clock import SystemClock
+from soaklog.config import InstrumentConfig
+from soaklog.errors import ConfigError, ConnectionLost, InputError, InstrumentTimeout
+from soaklog.drivers.base import STATUSES, RawReading
+from soaklog.drivers.serial_adc import AdcStream, SerialAdc
+from soaklog.simulators.adc import MAKER, MODEL, AdcBoardSimulator
+from soaklog.drivers.adcframe import Frame, encode_command, encode_frame
+from soaklog.simulators.plant import OPEN_OHM, FixedPlant
 
 FS24 = 2**23
 # the board protocol (simulators/adcframe.py): counts = floor(R / R_ref · 2^23 + 0.5),

@@ -13,7 +13,7 @@ def sim_run(tmp_path_factory: pytest.TempPathFactory) -> SimRun:
 
 @pytest.fixture(scope="session")
 def sim_report(sim_run: SimRun, tmp_path_factory: pytest.TempPathFactory):  # noqa: ANN201
-    from daq.report import make_report
+    from soaklog.report import make_report
 
     out = tmp_path_factory.mktemp("report")
     return make_report(sim_run.db, out_dir=out)

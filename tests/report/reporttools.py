@@ -9,12 +9,12 @@ from pathlib import Path
 
 import numpy as np
 
-from daq.demo import demo_config_text
-from daq.report.series import Series
-from daq.store import SampleBatch, Store
-from simulators.chamber import ChamberModel, ChamberParams
-from simulators.profiles import Cycle
-from simulators.world import _DEMO_POSITIONS
+from soaklog.demo import demo_config_text
+from soaklog.report.series import Series
+from soaklog.store import SampleBatch, Store
+from soaklog.simulators.chamber import ChamberModel, ChamberParams
+from soaklog.simulators.profiles import Cycle
+from soaklog.simulators.world import _DEMO_POSITIONS
 
 T0_MS = 1_800_000_000_000  # 2027-01-15T08:00:00Z
 

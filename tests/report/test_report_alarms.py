@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from daq.report.alarmlog import alarm_episodes, alarm_rates, peak_rating, rate_rating
+from soaklog.report.alarmlog import alarm_episodes, alarm_rates, peak_rating, rate_rating
 
 T0 = 1_800_000_000.0
 

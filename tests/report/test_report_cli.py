@@ -10,13 +10,13 @@ from pathlib import Path
 
 import pytest
 
-from daq.report.cli import add_parser
+from soaklog.report.cli import add_parser
 
 # until the lead wires `report` into daq/cli.py, the command is run through the same add_parser
 _SHIM = (
     "import argparse, sys\n"
-    "from daq.report.cli import add_parser\n"
-    "from daq.errors import SoaklogError\n"
+    "from soaklog.report.cli import add_parser\n"
+    "from soaklog.errors import SoaklogError\n"
     "p = argparse.ArgumentParser(prog='soaklog')\n"
     "sub = p.add_subparsers(dest='command')\n"
     "add_parser(sub)\n"
@@ -30,11 +30,11 @@ _SHIM = (
 
 
 def _report_cmd() -> list[str]:
-    from daq.cli import build_parser
+    from soaklog.cli import build_parser
 
     sub = next(a for a in build_parser()._actions if isinstance(a, argparse._SubParsersAction))
     if "report" in sub.choices:
-        return [sys.executable, "-m", "daq", "report"]
+        return [sys.executable, "-m", "soaklog", "report"]
     return [sys.executable, "-c", _SHIM, "report"]
 
 
@@ -49,7 +49,7 @@ def test_the_parser_has_help_and_the_documented_options() -> None:
 
 def test_report_after_a_short_demo(tmp_path: Path) -> None:
     db = tmp_path / "demo.db"
-    demo = subprocess.run([sys.executable, "-m", "daq", "demo", "--headless", "--duration", "8", "--db", str(db)],
+    demo = subprocess.run([sys.executable, "-m", "soaklog", "demo", "--headless", "--duration", "8", "--db", str(db)],
                           capture_output=True, text=True, timeout=120)
     assert demo.returncode == 0, demo.stderr
     out = tmp_path / "report"

@@ -18,9 +18,9 @@ from typing import Any
 import pytest
 from reporttools import DOOR_S, SIM_CYCLES, T0_MS, SimRun
 
-from daq.report import make_report
-from daq.report.build import TABLE_COLUMNS, ReportResult
-from daq.store import iso_utc
+from soaklog.report import make_report
+from soaklog.report.build import TABLE_COLUMNS, ReportResult
+from soaklog.store import iso_utc
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # the PNG specification (ISO/IEC 15948): the 8-byte file signature
 
@@ -83,7 +83,7 @@ def test_the_demo_dwell_is_too_short_for_the_module_cases(sim_report: ReportResu
 
 
 def test_channel_table_agrees_with_the_store(sim_run: SimRun, sim_report: ReportResult) -> None:
-    from daq.store import Store
+    from soaklog.store import Store
 
     rows = {r["channel"]: r for r in sim_report.summary["tables"]["channels"]}
     with Store.open(sim_run.db, readonly=True) as st:
@@ -211,7 +211,7 @@ def test_a_profile_file_overrides_the_configuration(sim_run: SimRun, tmp_path: P
 def test_a_run_without_a_profile_still_reports(tmp_path: Path) -> None:
     import numpy as np
 
-    from daq.store import SampleBatch, Store
+    from soaklog.store import SampleBatch, Store
 
     db = tmp_path / "plain.db"
     with Store.open(db) as st:
@@ -236,8 +236,8 @@ def test_progress_is_reported_to_the_end(sim_run: SimRun, tmp_path: Path) -> Non
 
 
 def test_a_run_with_a_profile_but_no_readings(tmp_path: Path) -> None:
-    from daq.demo import demo_config_text
-    from daq.store import Store
+    from soaklog.demo import demo_config_text
+    from soaklog.store import Store
 
     db = tmp_path / "empty.db"
     with Store.open(db) as st:
@@ -251,7 +251,7 @@ def test_a_run_with_a_profile_but_no_readings(tmp_path: Path) -> None:
 def test_a_gap_is_listed_with_its_cause(tmp_path: Path) -> None:
     import numpy as np
 
-    from daq.store import SampleBatch, Store
+    from soaklog.store import SampleBatch, Store
 
     # readings every 10 s for 10 min, none for the next 5 min (the logger was stopped), then 10 min more
     db = tmp_path / "gap.db"
@@ -277,7 +277,7 @@ def test_a_gap_is_listed_with_its_cause(tmp_path: Path) -> None:
 def test_configuration_in_force_shows_coefficients_and_the_calibration_record(tmp_path: Path) -> None:
     import numpy as np
 
-    from daq.store import SampleBatch, Store
+    from soaklog.store import SampleBatch, Store
 
     # a station whose sensor has its own coefficients and a calibration certificate (invented values)
     text = (

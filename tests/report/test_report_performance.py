@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from reporttools import grid
 
-from daq.report.performance import chamber_performance, stable_mask, stable_period
+from soaklog.report.performance import chamber_performance, stable_mask, stable_period
 
 # three points, ten one-minute readings at a set temperature of 125 °C:
 #   A alternates 125.0 / 125.4  → mean 125.2, fluctuation 0.4 K, deviation +0.2 K

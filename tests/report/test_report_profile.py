@@ -8,10 +8,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from daq.demo import demo_config_text
-from daq.errors import InputError
-from daq.report.build import load_profile_file
-from daq.report.profile import (
+from soaklog.demo import demo_config_text
+from soaklog.errors import InputError
+from soaklog.report.build import load_profile_file
+from soaklog.report.profile import (
     CycleProfile,
     SoakProfile,
     parse_profile,

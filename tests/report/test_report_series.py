@@ -9,8 +9,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from daq.errors import InputError
-from daq.report.series import (
+from soaklog.errors import InputError
+from soaklog.report.series import (
     Series,
     bucketize,
     crossing_time,

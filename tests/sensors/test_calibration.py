@@ -9,10 +9,10 @@ from hypothesis import strategies as st
 from numpy.polynomial import polynomial as P
 from scipy.optimize import least_squares
 
-from daq.errors import CalibrationError, InputError
-from daq.sensors.calibration import CalibrationFit, fit_cvd
-from daq.sensors.cvd import resistance, temperature
-from daq.sensors.flags import Flag
+from soaklog.errors import CalibrationError, InputError
+from soaklog.sensors.calibration import CalibrationFit, fit_cvd
+from soaklog.sensors.cvd import resistance, temperature
+from soaklog.sensors.flags import Flag
 
 # IEC 60751:2008, 4.2: the standard coefficients
 IEC_A, IEC_B, IEC_C = 3.9083e-3, -5.775e-7, -4.183e-12

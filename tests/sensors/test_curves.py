@@ -8,9 +8,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from daq.errors import InputError
-from daq.sensors.curves import CURVE_DESCRIPTIONS, NAMED_CURVES, curve_names, named_curve
-from daq.sensors.cvd import IEC_60751, resistance, temperature
+from soaklog.errors import InputError
+from soaklog.sensors.curves import CURVE_DESCRIPTIONS, NAMED_CURVES, curve_names, named_curve
+from soaklog.sensors.cvd import IEC_60751, resistance, temperature
 
 # issue requirement: the inverse is exact to 0.1 mK
 INVERSE_TOL_C = 1e-4

@@ -17,8 +17,8 @@ from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from daq.sensors.cvd import IEC_60751, CvdCurve, resistance, slope, temperature
-from daq.sensors.flags import FLAG_DTYPE, Flag, flag_names
+from soaklog.sensors.cvd import IEC_60751, CvdCurve, resistance, slope, temperature
+from soaklog.sensors.flags import FLAG_DTYPE, Flag, flag_names
 
 # IEC 60751:2008, 4.2: A = 3.9083e-3 /°C, B = -5.775e-7 /°C², C = -4.183e-12 /°C⁴,
 # C acting below 0 °C only, range -200…850 °C

@@ -9,10 +9,10 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from daq.errors import InputError
-from daq.sensors import cvd
-from daq.sensors.flags import Flag
-from daq.sensors.leads import (
+from soaklog.errors import InputError
+from soaklog.sensors import cvd
+from soaklog.sensors.flags import Flag
+from soaklog.sensors.leads import (
     COPPER_ALPHA_20C_PER_K,
     COPPER_RESISTIVITY_20C_OHM_MM2_PER_M,
     DEFAULT_THREE_WIRE_IMBALANCE,

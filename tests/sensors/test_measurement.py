@@ -9,17 +9,17 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from daq.errors import InputError
-from daq.sensors.cvd import IEC_60751
-from daq.sensors.flags import Flag, flag_names
-from daq.sensors.leads import Conductor, Leads
-from daq.sensors.measurement import (
+from soaklog.errors import InputError
+from soaklog.sensors.cvd import IEC_60751
+from soaklog.sensors.flags import Flag, flag_names
+from soaklog.sensors.leads import Conductor, Leads
+from soaklog.sensors.measurement import (
     Calibration,
     Excitation,
     MeasurementChain,
     SensorSpec,
 )
-from daq.sensors.tolerance import tolerance_class
+from soaklog.sensors.tolerance import tolerance_class
 
 
 def test_two_wire_subtracts_both_conductors():

@@ -9,16 +9,16 @@ import pytest
 from scipy.optimize import brentq
 from uncertainties import ufloat, umath
 
-from daq.errors import InputError
-from daq.sensors.cvd import IEC_60751
-from daq.sensors.montecarlo import (
+from soaklog.errors import InputError
+from soaklog.sensors.cvd import IEC_60751
+from soaklog.sensors.montecarlo import (
     DEFAULT_DRAWS,
     DeviationHalfWidths,
     class_half_widths,
     gum_error_band,
     mc_error_band,
 )
-from daq.sensors.tolerance import tolerance_class
+from soaklog.sensors.tolerance import tolerance_class
 
 # IEC 60751:2008, 4.2: the standard coefficients
 A, B, C = 3.9083e-3, -5.775e-7, -4.183e-12

@@ -11,9 +11,9 @@ from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 from scipy.optimize import brentq
 
-from daq.errors import CalibrationError, InputError
-from daq.sensors.flags import Flag
-from daq.sensors.ntc import KELVIN_OFFSET, BetaNtc, SteinhartHart, fit_steinhart_hart
+from soaklog.errors import CalibrationError, InputError
+from soaklog.sensors.flags import Flag
+from soaklog.sensors.ntc import KELVIN_OFFSET, BetaNtc, SteinhartHart, fit_steinhart_hart
 
 # Steinhart–Hart coefficients published for the 10 kΩ (25 °C) "10K3A1" /
 # YSI 44006 thermistor curve; from memory of thermistor makers' application

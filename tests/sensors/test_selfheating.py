@@ -9,9 +9,9 @@ import pytest
 from hypothesis import assume, given
 from hypothesis import strategies as st
 
-from daq.errors import CalibrationError, InputError
-from daq.sensors import cvd
-from daq.sensors.selfheating import (
+from soaklog.errors import CalibrationError, InputError
+from soaklog.sensors import cvd
+from soaklog.sensors.selfheating import (
     dissipation_from_two_currents,
     power_w,
     temperature_rise_k,

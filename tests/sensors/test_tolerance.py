@@ -13,8 +13,8 @@ import math
 import numpy as np
 import pytest
 
-from daq.errors import InputError
-from daq.sensors.tolerance import TOLERANCE_CLASSES, class_names, tolerance_class
+from soaklog.errors import InputError
+from soaklog.sensors.tolerance import TOLERANCE_CLASSES, class_names, tolerance_class
 
 # (a, b) of the tolerance ±(a + b·|t|) in °C
 # WIKA TR operating instructions (DIN EN 60751): AA ±(0.10 + 0.0017|t|),

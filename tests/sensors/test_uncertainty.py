@@ -9,8 +9,8 @@ import pytest
 import uncertainties
 from uncertainties import umath
 
-from daq.sensors.cvd import IEC_60751
-from daq.sensors.measurement import (
+from soaklog.sensors.cvd import IEC_60751
+from soaklog.sensors.measurement import (
     AdcSpec,
     Calibration,
     MeasurementChain,
@@ -18,8 +18,8 @@ from daq.sensors.measurement import (
     SensorSpec,
     decade_range_ohm,
 )
-from daq.sensors.tolerance import tolerance_class
-from daq.sensors.uncertainty import RECTANGULAR, combine, normal, rectangular
+from soaklog.sensors.tolerance import tolerance_class
+from soaklog.sensors.uncertainty import RECTANGULAR, combine, normal, rectangular
 
 
 def test_rectangular_divisor_is_root_three():
@@ -132,7 +132,7 @@ def test_budget_lists_each_source_separately():
         meter=MeterSpec(0.01, 0.004),
         adc=AdcSpec(bits=24, reference_ohm=400.0, reference_tolerance_pct=0.02),
     )
-    from daq.sensors.measurement import Excitation
+    from soaklog.sensors.measurement import Excitation
 
     chain = MeasurementChain(chain.sensor, chain.leads, Excitation(current_a=1e-3), chain.meter, chain.adc)
     conv = chain.convert(np.array([119.397, 138.5055]))

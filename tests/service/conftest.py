@@ -9,10 +9,10 @@ from pathlib import Path
 
 import pytest
 
-from daq.clock import AcceleratedClock
-from daq.demo import build_demo_config
-from daq.service import Service
-from simulators.lab import Lab
+from soaklog.clock import AcceleratedClock
+from soaklog.demo import build_demo_config
+from soaklog.service import Service
+from soaklog.simulators.lab import Lab
 
 EPOCH_UTC_S = 1_800_000_000.0
 

@@ -15,7 +15,7 @@ from pathlib import Path
 import pytest
 from conftest import wait_for
 
-from daq.demo import demo_config_text
+from soaklog.demo import demo_config_text
 
 
 def _config(tmp: Path, resource: str, board: str) -> Path:
@@ -41,7 +41,7 @@ def _count(db: Path) -> int:
 def simulated_lab(tmp_path):
     board = str(tmp_path / "board")
     p = subprocess.Popen(
-        [sys.executable, "-m", "daq", "simulate", "chamber", "--link", board],
+        [sys.executable, "-m", "soaklog", "simulate", "chamber", "--link", board],
         stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, text=True,
     )
     resource = None
@@ -66,7 +66,7 @@ def test_kill_9_many_times_loses_at_most_a_commit_interval_and_continues_the_run
     rng = random.Random(20261201)
     kills = 4
     for k in range(kills):
-        proc = subprocess.Popen([sys.executable, "-m", "daq", "run", str(cfg)],
+        proc = subprocess.Popen([sys.executable, "-m", "soaklog", "run", str(cfg)],
                                 stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
         before = _count(db)
         wait_for(lambda: _count(db) >= before + 16, 30, "the logger storing readings")
@@ -83,7 +83,7 @@ def test_kill_9_many_times_loses_at_most_a_commit_interval_and_continues_the_run
         # last commit interval (plus the scan in flight and process start-up slack)
         assert killed_at - last_ms / 1000.0 <= 1.0 + 1.0 + 1.0, f"kill {k}: {killed_at - last_ms / 1000.0:.2f} s lost"
     # the last start: stops cleanly on SIGTERM
-    proc = subprocess.Popen([sys.executable, "-m", "daq", "run", str(cfg)],
+    proc = subprocess.Popen([sys.executable, "-m", "soaklog", "run", str(cfg)],
                             stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     before = _count(db)
     wait_for(lambda: _count(db) >= before + 8, 30, "the logger storing readings")

@@ -8,7 +8,7 @@ from collections import defaultdict
 import numpy as np
 from conftest import EPOCH_UTC_S, wait_for
 
-from daq.store import Store
+from soaklog.store import Store
 
 
 def test_stored_temperatures_agree_with_the_truth_within_their_uncertainty(lab_run):

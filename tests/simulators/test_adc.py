@@ -14,9 +14,9 @@ from collections.abc import Callable, Iterator
 import pytest
 import serial
 
-from daq.errors import InputError
-from simulators.adc import FIRMWARE, MAKER, MODEL, AdcBoardSimulator
-from drivers.adcframe import (
+from soaklog.errors import InputError
+from soaklog.simulators.adc import FIRMWARE, MAKER, MODEL, AdcBoardSimulator
+from soaklog.drivers.adcframe import (
     FLAG_CHANNEL_FAULT,
     FLAG_CONFIG_CHANGED,
     FLAG_STREAM_START,
@@ -27,7 +27,7 @@ from drivers.adcframe import (
     counts_to_ohm,
     encode_command,
 )
-from simulators.plant import OPEN_OHM, FixedPlant, Terminal
+from soaklog.simulators.plant import OPEN_OHM, FixedPlant, Terminal
 
 FS24 = 2**23
 ONE_COUNT_OHM = 400.0 / FS24  # 47.7 µohm: the resolution against R_ref = 400 ohm at 24 bits

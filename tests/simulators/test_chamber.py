@@ -9,10 +9,10 @@ import numpy as np
 import pytest
 import scipy.linalg
 
-from daq.errors import InputError
-from simulators.chamber import ChamberModel, ChamberParams, Position, transition_matrix
-from simulators.clock import ManualClock, SimClock
-from simulators.profiles import Cycle, Soak, Steps
+from soaklog.errors import InputError
+from soaklog.simulators.chamber import ChamberModel, ChamberParams, Position, transition_matrix
+from soaklog.simulators.clock import ManualClock, SimClock
+from soaklog.simulators.profiles import Cycle, Soak, Steps
 
 # The default parameters, worked by hand (ChamberParams docstring):
 #   C_air = 15 000 J/K, C_load = 4 000 J/K, G_al = 20 W/K, G_wall = 5 W/K
@@ -421,7 +421,7 @@ def test_bad_positions_are_refused() -> None:
 def test_the_benchmark_runs_and_counts_its_steps() -> None:
     # a smoke run of the benchmark (its figures are not judged here): half an
     # hour at 1 s steps is 1800 steps (by hand)
-    from simulators.bench import bench_chamber
+    from soaklog.simulators.bench import bench_chamber
 
     result = bench_chamber(hours=0.5)
     assert result["steps"] == 1800

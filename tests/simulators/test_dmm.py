@@ -20,9 +20,9 @@ from hypothesis import given
 from hypothesis import strategies as st
 from pyvisa.constants import StatusCode
 
-from simulators.dmm import DmmSimulator
-from simulators.dmm_bench import bench_dmm
-from simulators.plant import OPEN_OHM, FixedPlant, Terminal
+from soaklog.simulators.dmm import DmmSimulator
+from soaklog.simulators.dmm_bench import bench_dmm
+from soaklog.simulators.plant import OPEN_OHM, FixedPlant, Terminal
 
 # IEC 60751:2008 table 1 (Pt100): 0 °C -> 100.00 ohm, 100 °C -> 138.51 ohm
 # (138.5055 from the equation); the rest are plain values in a Pt100's span.

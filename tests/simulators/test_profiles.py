@@ -9,8 +9,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from daq.errors import InputError
-from simulators.profiles import LAB_AMBIENT_C, Cycle, Hold, Phase, Soak, Steps
+from soaklog.errors import InputError
+from soaklog.simulators.profiles import LAB_AMBIENT_C, Cycle, Hold, Phase, Soak, Steps
 
 # JESD22-A104 condition G: −40 °C / +125 °C (from memory of JESD22-A104);
 # 10 K/min ramps and 15 min dwells as in the demo scenario.

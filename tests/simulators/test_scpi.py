@@ -13,8 +13,8 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from simulators import scpi
-from simulators.scpi import Command, CommandTree, ErrorQueue, ScpiError
+from soaklog.simulators import scpi
+from soaklog.simulators.scpi import Command, CommandTree, ErrorQueue, ScpiError
 
 TREE = CommandTree(
     [

@@ -10,11 +10,11 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from daq.errors import InputError
-from daq.sensors.cvd import IEC_60751, CvdCurve, resistance, temperature
-from daq.sensors.leads import Conductor
-from simulators.plant import OPEN_OHM
-from simulators.sensors import SHORT_OHM, Fault, FaultState, SimSensor
+from soaklog.errors import InputError
+from soaklog.sensors.cvd import IEC_60751, CvdCurve, resistance, temperature
+from soaklog.sensors.leads import Conductor
+from soaklog.simulators.plant import OPEN_OHM
+from soaklog.simulators.sensors import SHORT_OHM, Fault, FaultState, SimSensor
 
 # IEC 60028: annealed copper 1/58 ohm·mm²/m at 20 °C, α20 = 0.00393 /K.
 # 0.5 mm² worked by hand: R' = 1/(58 · 0.5) = 0.034 482 76 ohm/m at 20 °C.

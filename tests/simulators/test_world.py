@@ -9,16 +9,16 @@ from pathlib import Path
 
 import pytest
 
-from daq.errors import InputError
-from daq.sensors.cvd import IEC_60751, temperature
-from daq.sensors.tolerance import tolerance_class
-from simulators.chamber import ChamberModel, ChamberParams, Position
-from simulators.clock import ManualClock
-from simulators.control import ControlServer, send_control
-from simulators.plant import OPEN_OHM, Terminal
-from simulators.profiles import Soak
-from simulators.sensors import SHORT_OHM, SimSensor
-from simulators.world import (
+from soaklog.errors import InputError
+from soaklog.sensors.cvd import IEC_60751, temperature
+from soaklog.sensors.tolerance import tolerance_class
+from soaklog.simulators.chamber import ChamberModel, ChamberParams, Position
+from soaklog.simulators.clock import ManualClock
+from soaklog.simulators.control import ControlServer, send_control
+from soaklog.simulators.plant import OPEN_OHM, Terminal
+from soaklog.simulators.profiles import Soak
+from soaklog.simulators.sensors import SHORT_OHM, SimSensor
+from soaklog.simulators.world import (
     DEMO_BOARD_CHANNELS,
     DEMO_CHANNELS,
     DEMO_METER_CHANNELS,
