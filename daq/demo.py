@@ -52,7 +52,7 @@ _SUPPLY_LINE = re.compile(r'(?m)^resource = ".*?"(\s*# the simulated heater supp
 
 def demo_config_text() -> str:
     """The demo station file as shipped."""
-    return resources.files("daq").joinpath("data/demo.toml").read_text(encoding="utf-8")
+    return resources.files("soaklog").joinpath("data/demo.toml").read_text(encoding="utf-8")
 
 
 def build_demo_config(meter_resource: str, board_port: str, database: str, *, where: str,
