@@ -16,43 +16,17 @@ import threading
 import time
 from typing import Protocol
 
+from soaklog.drivers.base import Clock, SystemClock
+
 __all__ = ["ServiceClock", "SystemClock", "AcceleratedClock", "SimTime"]
 
 
-class ServiceClock(Protocol):
-    def utc_s(self) -> float:
-        """UTC now, seconds since the epoch, never decreasing."""
-        ...
-
-    def monotonic_s(self) -> float:
-        """The scheduling time line, seconds (service time, not wall time when accelerated)."""
-        ...
+class ServiceClock(Clock, Protocol):
+    """A driver's clock that the service can also wait on (service time, not wall time when accelerated)."""
 
     def wait_until(self, t_s: float, stop: threading.Event) -> bool:
         """Wait until ``monotonic_s()`` reaches ``t_s``; False if ``stop`` was set first."""
         ...
-
-
-class SystemClock:
-    """Real time: monotonic scheduling, UTC stamps anchored once at start."""
-
-    def __init__(self) -> None:
-        self._utc0 = time.time()
-        self._mono0 = time.monotonic()
-
-    def utc_s(self) -> float:
-        return self._utc0 + (time.monotonic() - self._mono0)
-
-    def monotonic_s(self) -> float:
-        return time.monotonic()
-
-    def wait_until(self, t_s: float, stop: threading.Event) -> bool:
-        while True:
-            left = t_s - time.monotonic()
-            if left <= 0:
-                return not stop.is_set()
-            if stop.wait(min(left, 1.0)):
-                return False
 
 
 class SimTime(Protocol):

@@ -11,22 +11,19 @@ import datetime as _dt
 import math
 import re
 import tomllib
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+from types import MappingProxyType
 from pathlib import Path
 from typing import Any
 
 from soaklog.errors import ConfigError, InputError
+from soaklog.kinds import INSTRUMENTS
+from soaklog.kinds.instruments import COMMON_KEYS, InstrumentKind
+from soaklog.kinds.keys import Checker, non_negative, one_of, parse_duration, plain_date, positive
 from soaklog.sensors.cvd import IEC_60751, CvdCurve
 from soaklog.sensors.leads import Conductor, Leads
-from soaklog.sensors.measurement import (
-    AdcSpec,
-    Calibration,
-    Excitation,
-    MeasurementChain,
-    MeterSpec,
-    SensorSpec,
-)
+from soaklog.sensors.measurement import Calibration, MeasurementChain, chain_of
 from soaklog.sensors.tolerance import ToleranceClass, tolerance_class
 
 __all__ = [
@@ -40,75 +37,42 @@ __all__ = [
     "AlarmConfig",
     "ActionConfig",
     "ConfigProblems",
-    "DEFAULT_TEST_CURRENT_A",
 ]
-
-_DURATION = re.compile(r"^\s*([0-9]+(?:\.[0-9]*)?|\.[0-9]+)\s*(ms|s|sec|min|h|d)\s*$")
-_UNIT_S = {"ms": 1e-3, "s": 1.0, "sec": 1.0, "min": 60.0, "h": 3600.0, "d": 86400.0}
-
-#: measuring current per ohms range of a typical bench DMM (common practice, no
-#: published source: check the meter's data sheet; override per instrument)
-DEFAULT_TEST_CURRENT_A: dict[float, float] = {
-    100.0: 1e-3,
-    1_000.0: 1e-3,
-    10_000.0: 100e-6,
-    100_000.0: 10e-6,
-    1_000_000.0: 5e-6,
-}
-
-
-def parse_duration(text: object) -> float:
-    """Seconds from a duration with a unit: ``"500ms"``, ``"2s"``, ``"15min"``, ``"1000h"``, ``"7d"``.
-
-    Raises:
-        InputError: no unit, an unknown unit, or not a number.
-    """
-    if not isinstance(text, str):
-        raise InputError(f"a duration is text with a unit, like \"2s\" or \"15min\"; got {text!r}")
-    m = _DURATION.match(text)
-    if not m:
-        raise InputError(f"{text!r} is not a duration; write a number and a unit: ms, s, min, h, d (\"2s\", \"1000h\")")
-    return float(m.group(1)) * _UNIT_S[m.group(2)]
-
 
 # ---------------------------------------------------------------- the model
 
 
 @dataclass(frozen=True)
 class InstrumentConfig:
+    """An ``[[instrument]]``: the keys every instrument has, and its kind's own ``settings`` (validated, defaults filled in)."""
+
     name: str
-    driver: str  # "scpi" | "serial-adc"
+    driver: str
     interval_s: float
     timeout_s: float
-    resource: str = ""
-    backend: str = "@py"
-    port: str = ""
-    baudrate: int = 115200
-    wiring: int = 4  # scpi: 2 or 4 (the meter's mode); serial-adc: the board's hook-up
-    range_ohm: float | None = 1000.0
-    nplc: float = 1.0
-    offset_compensation: bool = True
-    test_current_a: Mapping[float, float] = field(default_factory=lambda: dict(DEFAULT_TEST_CURRENT_A))
-    accuracy_pct_reading: float | None = None
-    accuracy_pct_range: float | None = None
-    profile: str = "generic"
-    commands: Mapping[str, str] = field(default_factory=dict)
-    reference_ohm: float = 400.0
-    bits: int = 24
-    reference_tolerance_pct: float = 0.0
-    excitation_a: float = 250e-6
+    settings: Mapping[str, Any] = field(default_factory=dict)
 
-    def current_for_range(self, range_ohm: float | None = None) -> float | None:
-        """The measuring current on a range (the instrument's by default; None on autorange)."""
-        if self.driver != "scpi":
-            return self.excitation_a
-        rng_ohm = self.range_ohm if range_ohm is None else range_ohm
-        if rng_ohm is None:
-            return None
-        for rng in sorted(self.test_current_a):
-            if rng_ohm <= rng:
-                return self.test_current_a[rng]
-        return None
+    @property
+    def kind(self) -> InstrumentKind:
+        """The instrument kind its ``driver`` names (soaklog.kinds.INSTRUMENTS)."""
+        return INSTRUMENTS[self.driver]
+
+    @property
+    def wiring(self) -> int:
+        """The hook-up its channels have unless they say otherwise."""
+        return self.kind.default_wiring(self)
+
+    def range_ohm(self, channel: ChannelConfig | None = None) -> float | None:
+        """The ohms range a channel is measured on (None: no range, or autorange)."""
+        return self.kind.range_ohm(self, channel)
+
+    def current_a(self, channel: ChannelConfig | None = None) -> float | None:
+        """The measuring current through a channel's sensor (None: not known)."""
+        return self.kind.current_a(self, channel)
+
+    @property
+    def address(self) -> str:
+        return self.kind.address(self)
 
 
 @dataclass(frozen=True)
@@ -212,21 +176,18 @@ class StationConfig:
         """The measurement chain of one channel: sensor, leads, excitation, instrument spec."""
         sensor = self.sensor(channel.sensor)
         inst = self.instrument(channel.instrument)
-        cal = None
-        if sensor.calibration is not None:
-            c = sensor.calibration
-            cal = Calibration(c.expanded_uncertainty_c, c.k, c.span_c[0], c.span_c[1], c.certificate)
-        spec = SensorSpec(sensor.curve, sensor.tolerance, cal, sensor.dissipation_w_per_k)
-        rng = channel.range_ohm if channel.range_ohm is not None else inst.range_ohm
-        current = channel.excitation_a if channel.excitation_a is not None else inst.current_for_range(rng)
-        excitation = Excitation(current_a=current) if current is not None else None
-        meter = None
-        adc = None
-        if inst.driver == "scpi" and inst.accuracy_pct_reading is not None:
-            meter = MeterSpec(inst.accuracy_pct_reading, inst.accuracy_pct_range or 0.0, rng)
-        if inst.driver == "serial-adc":
-            adc = AdcSpec(inst.bits, inst.reference_ohm, inst.reference_tolerance_pct)
-        return MeasurementChain(spec, channel.leads, excitation, meter, adc)
+        current = channel.excitation_a if channel.excitation_a is not None else inst.current_a(channel)
+        return chain_of(
+            sensor.curve, tolerance=sensor.tolerance, calibration=_calibration(sensor.calibration),
+            dissipation_w_per_k=sensor.dissipation_w_per_k, leads=channel.leads, current_a=current,
+            meter=inst.kind.meter_spec(inst, channel), adc=inst.kind.adc_spec(inst, channel),
+        )
+
+
+def _calibration(c: CalibrationRecord | None) -> Calibration | None:
+    if c is None:
+        return None
+    return Calibration(c.expanded_uncertainty_c, c.k, c.span_c[0], c.span_c[1], c.certificate)
 
 
 # ---------------------------------------------------------------- validation
@@ -254,113 +215,15 @@ class ConfigProblems(ConfigError):
         )
 
 
-class _Checker:
-    """Collects problems instead of stopping at the first."""
-
-    def __init__(self) -> None:
-        self.problems: list[tuple[str, str]] = []
-        self.warnings: list[str] = []
-
-    def bad(self, key: str, msg: str) -> None:
-        self.problems.append((key, msg))
-
-    def table(self, data: Any, key: str) -> dict[str, Any]:
-        if not isinstance(data, dict):
-            self.bad(key, f"must be a table, got {type(data).__name__}")
-            return {}
-        return data
-
-    def unknown(self, data: Mapping[str, Any], key: str, allowed: set[str]) -> None:
-        for k in data:
-            if k not in allowed:
-                close = _closest(k, allowed)
-                hint = f"; did you mean {close!r}?" if close else f"; allowed: {', '.join(sorted(allowed))}"
-                self.bad(f"{key}.{k}" if key else k, f"unknown key{hint}")
-
-    def get(
-        self,
-        data: Mapping[str, Any],
-        key: str,
-        name: str,
-        kind: type | tuple[type, ...],
-        *,
-        default: Any = None,
-        required: bool = False,
-        check: Callable[[Any], str | None] | None = None,
-    ) -> Any:
-        where = f"{key}.{name}" if key else name
-        if name not in data:
-            if required:
-                self.bad(where, "is required")
-            return default
-        value = data[name]
-        kinds = kind if isinstance(kind, tuple) else (kind,)
-        if float in kinds and isinstance(value, int) and not isinstance(value, bool):
-            value = float(value)
-        if isinstance(value, bool) and bool not in kinds:
-            self.bad(where, f"must be {_kind_name(kinds)}, got {value!r}")
-            return default
-        if not isinstance(value, kinds):
-            self.bad(where, f"must be {_kind_name(kinds)}, got {value!r}")
-            return default
-        if isinstance(value, float) and not math.isfinite(value):
-            self.bad(where, f"must be a finite number, got {value!r}")
-            return default
-        if check is not None:
-            msg = check(value)
-            if msg:
-                self.bad(where, msg)
-                return default
-        return value
-
-    def duration(self, data: Mapping[str, Any], key: str, name: str, *, default: str | None, minimum_s: float = 0.0) -> float | None:
-        where = f"{key}.{name}" if key else name
-        raw = data.get(name, default)
-        if raw is None:
-            return None
-        try:
-            s = parse_duration(raw)
-        except InputError as exc:
-            self.bad(where, str(exc))
-            return None
-        if s <= minimum_s:
-            self.bad(where, f"must be longer than {minimum_s:g} s, got {raw!r}")
-            return None
-        return s
-
-
-def _kind_name(kinds: tuple[type, ...]) -> str:
-    names = {str: "text", int: "an integer", float: "a number", bool: "true or false", list: "a list", dict: "a table"}
-    return " or ".join(names.get(k, k.__name__) for k in kinds)
-
-
-def _closest(word: str, options: set[str]) -> str | None:
-    import difflib
-
-    m = difflib.get_close_matches(word, sorted(options), n=1, cutoff=0.75)
-    return m[0] if m else None
-
-
-def _plain_date(v: _dt.date) -> str | None:
-    return f"must be a date like 2027-01-31, without a time; got {v!r}" if isinstance(v, _dt.datetime) else None
-
-
-def _positive(v: float) -> str | None:
-    return None if v > 0 else f"must be positive, got {v!r}"
-
-
-def _non_negative(v: float) -> str | None:
-    return None if v >= 0 else f"must not be negative, got {v!r}"
+_Checker = Checker
+_positive = positive
+_non_negative = non_negative
+_plain_date = plain_date
 
 
 _TOP_KEYS = {"station", "run", "instrument", "sensor", "channel", "alarm", "profile"}
 _STATION_KEYS = {"name", "database", "commit_interval", "ambient_c"}
 _RUN_KEYS = {"name", "planned_duration"}
-_INSTRUMENT_KEYS = {
-    "name", "driver", "resource", "backend", "port", "baudrate", "interval", "timeout", "wiring",
-    "range_ohm", "nplc", "offset_compensation", "test_current_a", "accuracy", "profile", "commands",
-    "reference_ohm", "bits", "reference_tolerance_pct", "excitation_ma",
-}
 _SENSOR_KEYS = {
     "name", "type", "r0_ohm", "curve", "coefficients", "class", "element", "dissipation_mw_per_k",
     "calibration", "description",
@@ -372,7 +235,6 @@ _CHANNEL_KEYS = {
 }
 _LEAD_KEYS = {"ohms", "awg", "mm2", "inside_m", "outside_m", "tolerance", "imbalance_fraction"}
 _ALARM_KEYS_COMMON = {"name", "kind", "channel", "channels", "severity"}
-_DRIVERS = {"scpi", "serial-adc"}
 
 
 def load_config(path: str | Path, *, today: _dt.date | None = None) -> StationConfig:
@@ -455,82 +317,28 @@ def _unique_name(ck: _Checker, seen: set[str], name: str | None, key: str) -> No
     seen.add(name)
 
 
-def _instruments(ck: _Checker, raw: Any, ) -> list[InstrumentConfig]:
+def _instruments(ck: _Checker, raw: Any) -> list[InstrumentConfig]:
     out: list[InstrumentConfig] = []
     seen: set[str] = set()
     for i, item in enumerate(_array(ck, raw, "instrument")):
         key = f"instrument[{i + 1}]"
         d = ck.table(item, key)
-        ck.unknown(d, key, _INSTRUMENT_KEYS)
         name = ck.get(d, key, "name", str, required=True)
         _unique_name(ck, seen, name, key)
-        driver = ck.get(d, key, "driver", str, required=True,
-                        check=lambda v: None if v in _DRIVERS else f"must be one of {', '.join(sorted(_DRIVERS))}, got {v!r}")
+        driver = ck.get(d, key, "driver", str, required=True, check=one_of(INSTRUMENTS.names))
         interval = ck.duration(d, key, "interval", default="2s")
         timeout = ck.duration(d, key, "timeout", default="5s")
-        kw: dict[str, Any] = {}
-        if driver == "scpi":
-            res = ck.get(d, key, "resource", str, required=True)
-            if res is not None and "::" not in res:
-                ck.bad(f"{key}.resource", f"must be a VISA resource string like TCPIP0::192.0.2.5::5025::SOCKET, got {res!r}")
-            kw["resource"] = res or ""
-            kw["backend"] = ck.get(d, key, "backend", str, default="@py")
-            kw["wiring"] = ck.get(d, key, "wiring", int, default=4,
-                                  check=lambda v: None if v in (2, 4) else f"a meter measures 2- or 4-wire, got {v!r}")
-            rng = d.get("range_ohm", 1000.0)
-            if rng == "auto":
-                kw["range_ohm"] = None
-                ck.warnings.append(f"{key}: autorange changes the test current with the range; a fixed range is better for RTDs")
-            else:
-                kw["range_ohm"] = ck.get(d, key, "range_ohm", float, default=1000.0, check=_positive)
-            kw["nplc"] = ck.get(d, key, "nplc", float, default=1.0,
-                                check=lambda v: None if 0.001 <= v <= 1000 else f"must be within 0.001…1000, got {v!r}")
-            kw["offset_compensation"] = ck.get(d, key, "offset_compensation", bool, default=True)
-            tc = d.get("test_current_a")
-            if tc is not None:
-                t = ck.table(tc, f"{key}.test_current_a")
-                currents: dict[float, float] = {}
-                for rk, rv in t.items():
-                    try:
-                        r = float(rk)
-                    except ValueError:
-                        ck.bad(f"{key}.test_current_a.{rk}", "keys are ranges in ohm, like \"1000\"")
-                        continue
-                    if not isinstance(rv, (int, float)) or isinstance(rv, bool) or not (math.isfinite(rv) and rv > 0):
-                        ck.bad(f"{key}.test_current_a.{rk}", f"must be a positive current in A, got {rv!r}")
-                        continue
-                    currents[r] = float(rv)
-                kw["test_current_a"] = {**DEFAULT_TEST_CURRENT_A, **currents}
-            acc = d.get("accuracy")
-            if acc is not None:
-                a = ck.table(acc, f"{key}.accuracy")
-                ck.unknown(a, f"{key}.accuracy", {"pct_reading", "pct_range"})
-                kw["accuracy_pct_reading"] = ck.get(a, f"{key}.accuracy", "pct_reading", float, required=True, check=_non_negative)
-                kw["accuracy_pct_range"] = ck.get(a, f"{key}.accuracy", "pct_range", float, default=0.0, check=_non_negative)
-            kw["profile"] = ck.get(d, key, "profile", str, default="generic")
-            cmds = d.get("commands", {})
-            c = ck.table(cmds, f"{key}.commands")
-            for ckey, cval in c.items():
-                if not isinstance(cval, str):
-                    ck.bad(f"{key}.commands.{ckey}", f"must be text (a SCPI command), got {cval!r}")
-            kw["commands"] = {k: v for k, v in c.items() if isinstance(v, str)}
-        elif driver == "serial-adc":
-            kw["port"] = ck.get(d, key, "port", str, required=True) or ""
-            kw["baudrate"] = ck.get(d, key, "baudrate", int, default=115200, check=lambda v: None if v > 0 else "must be positive")
-            kw["wiring"] = ck.get(d, key, "wiring", int, default=3,
-                                  check=lambda v: None if v in (2, 3, 4) else f"must be 2, 3 or 4, got {v!r}")
-            kw["reference_ohm"] = ck.get(d, key, "reference_ohm", float, default=400.0, check=_positive)
-            kw["bits"] = ck.get(d, key, "bits", int, default=24,
-                                check=lambda v: None if 8 <= v <= 24 else f"must be 8…24 (the board's counts), got {v!r}")
-            kw["reference_tolerance_pct"] = ck.get(d, key, "reference_tolerance_pct", float, default=0.0, check=_non_negative)
-            ma = ck.get(d, key, "excitation_ma", float, default=0.25, check=_positive)
-            kw["excitation_a"] = (ma or 0.25) / 1000.0
-        if name is None or driver is None or interval is None or timeout is None:
+        kind = INSTRUMENTS.get(driver) if driver is not None else None
+        if kind is None:
+            # an unknown driver: which other keys belong to it cannot be told
+            ck.unknown(d, key, set(COMMON_KEYS).union(*(k.keys for _, k in INSTRUMENTS.items())))
             continue
-        keep = {k: v for k, v in kw.items() if v is not None}
-        if driver == "scpi" and "range_ohm" in kw:
-            keep["range_ohm"] = kw["range_ohm"]  # None is autorange, not "not given"
-        out.append(InstrumentConfig(name=name, driver=driver, interval_s=interval, timeout_s=timeout, **keep))
+        ck.unknown(d, key, set(COMMON_KEYS) | set(kind.keys))
+        settings = kind.read(ck, d, key)
+        if name is None or interval is None or timeout is None:
+            continue
+        out.append(InstrumentConfig(name=name, driver=driver, interval_s=interval, timeout_s=timeout,
+                                    settings=MappingProxyType(settings)))
     return out
 
 
@@ -661,8 +469,8 @@ def _channels(
         if not isinstance(inp, str) or not inp:
             ck.bad(f"{key}.input", f"is required: the instrument's input (\"101\" on a scanner card, \"0\" on a board), got {inp!r}")
             inp = None
-        elif icfg is not None and icfg.driver == "serial-adc" and not (inp.isdigit() and 0 <= int(inp) <= 63):
-            ck.bad(f"{key}.input", f"a board input is a number 0…63, got {inp!r}")
+        elif icfg is not None and (msg := icfg.kind.check_input(icfg, inp)):
+            ck.bad(f"{key}.input", msg)
         elif inst is not None and (inst, inp) in inputs:
             ck.bad(f"{key}.input", f"input {inp} of {inst} is used by another channel")
         if inst is not None and inp is not None:
@@ -673,13 +481,13 @@ def _channels(
         default_wiring = icfg.wiring if icfg is not None else 4
         wiring = ck.get(d, key, "wiring", int, default=default_wiring,
                         check=lambda v: None if v in (2, 3, 4) else f"must be 2, 3 or 4, got {v!r}")
-        if icfg is not None and wiring is not None and icfg.driver == "scpi" and wiring not in (2, 4):
-            ck.bad(f"{key}.wiring", f"a multimeter measures 2- or 4-wire, not {wiring}-wire")
+        if icfg is not None and wiring is not None and (msg := icfg.kind.check_wiring(icfg, wiring)):
+            ck.bad(f"{key}.wiring", msg)
         leads = _leads(ck, d, key, wiring)
         ma = ck.get(d, key, "excitation_ma", float, check=_positive)
         ch_range = ck.get(d, key, "range_ohm", float, check=_positive)
-        if ch_range is not None and icfg is not None and icfg.driver != "scpi":
-            ck.bad(f"{key}.range_ohm", f"a range applies to a multimeter channel; {inst} is a {icfg.driver} board")
+        if ch_range is not None and icfg is not None and not icfg.kind.channel_range:
+            ck.bad(f"{key}.range_ohm", f"a range applies to a multimeter channel; {inst} is {icfg.kind.noun}")
         if name is None or inst is None or inp is None or sensor is None or leads is None \
                 or inst not in instruments or sensor not in sensors:
             continue
@@ -1011,33 +819,20 @@ def _metrology_warnings(
                 f"channel {c.name}: 2-wire with a class {s.tolerance.name} sensor: the lead residual will swamp "
                 "the sensor's tolerance; use 3- or 4-wire"
             )
-        rng = c.range_ohm if c.range_ohm is not None else i.range_ohm
-        current = c.excitation_a if c.excitation_a is not None else i.current_for_range(rng)
+        current = c.excitation_a if c.excitation_a is not None else i.current_a(c)
         if current is not None and s.dissipation_w_per_k is None and s.curve.r0_ohm >= 500 and current >= 0.5e-3:
             ck.warnings.append(
                 f"channel {c.name}: a Pt{s.curve.r0_ohm:g} at {current * 1e3:g} mA self-heats visibly and no "
                 "dissipation constant is given to correct it; give dissipation_mw_per_k or use a range with a lower test current"
             )
         elif current is not None and s.dissipation_w_per_k is not None:
-            r_max = float(s.curve.resistance(s.curve.t_max_c))
             rise = current * current * float(s.curve.r0_ohm) / s.dissipation_w_per_k
             if rise > 0.1:
                 ck.warnings.append(
                     f"channel {c.name}: self-heating about {rise:.2f} K at 0 °C with {current * 1e3:g} mA; "
                     "it is corrected, but its uncertainty grows with it"
                 )
-            del r_max
-        if i.driver == "scpi" and rng is not None:
-            r_hi = float(s.curve.resistance(min(s.curve.t_max_c, 850.0)))
-            if r_hi > 1.2 * rng and s.curve.r0_ohm > 1.2 * rng / 4:
-                ck.warnings.append(
-                    f"channel {c.name}: the {rng:g} ohm range of {i.name} over-ranges above "
-                    f"about {_t_at(s.curve, 1.2 * rng):.0f} °C for this sensor"
-                )
+        i.kind.warnings(i, c, s, ck)
         if s.tolerance is None and s.calibration is None:
             ck.warnings.append(f"sensor {s.name}: no class or calibration: its uncertainty leaves the sensor out")
 
-
-def _t_at(curve: CvdCurve, r_ohm: float) -> float:
-    t, _ = curve.temperature(r_ohm)
-    return float(t) if math.isfinite(float(t)) else curve.t_max_c

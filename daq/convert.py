@@ -17,10 +17,9 @@ from soaklog.sensors.measurement import (
     AdcSpec,
     Calibration,
     Conversion,
-    Excitation,
     MeasurementChain,
     MeterSpec,
-    SensorSpec,
+    chain_of,
 )
 from soaklog.sensors.tolerance import tolerance_class
 
@@ -150,10 +149,6 @@ def build_chain(opts: ConvertOptions) -> MeasurementChain:
         raise InputError("--cal-span needs --cal-uncertainty")
     if opts.dissipation_w_per_k is not None and opts.current_a is None and opts.voltage_v is None:
         raise InputError("--dissipation-mw-per-k needs the excitation: --current-ma or --voltage-v")
-    excitation = None
-    if opts.current_a is not None or opts.voltage_v is not None:
-        excitation = Excitation(opts.current_a, opts.voltage_v)
-    sensor = SensorSpec(curve, tol, cal, opts.dissipation_w_per_k)
     meter = None
     if opts.meter_accuracy_pct is not None:
         meter = MeterSpec(*opts.meter_accuracy_pct, range_ohm=opts.meter_range_ohm)
@@ -164,7 +159,8 @@ def build_chain(opts: ConvertOptions) -> MeasurementChain:
         if opts.adc_bits is None or opts.reference_ohm is None:
             raise InputError("a ratiometric board needs both --adc-bits and --reference-ohms")
         adc = AdcSpec(opts.adc_bits, opts.reference_ohm, opts.reference_tolerance_pct)
-    return MeasurementChain(sensor, _leads(opts), excitation, meter, adc)
+    return chain_of(curve, tolerance=tol, calibration=cal, dissipation_w_per_k=opts.dissipation_w_per_k,
+             leads=_leads(opts), current_a=opts.current_a, voltage_v=opts.voltage_v, meter=meter, adc=adc)
 
 
 def _num(x: float) -> float | None:

@@ -63,8 +63,7 @@ class Pipeline:
             curve = chain.sensor.curve
             inst = config.instrument(ch.instrument)
             r_max = float(curve.resistance(curve.t_max_c))
-            rng = ch.range_ohm if ch.range_ohm is not None else inst.range_ohm
-            open_on_overload = inst.driver == "serial-adc" or (rng is not None and 1.2 * rng >= r_max)
+            open_on_overload = inst.kind.open_on_overload(inst, ch, r_max)
             self._by_input[(ch.instrument, ch.input)] = ChannelPipeline(
                 ch, store_ids[ch.name], chain,
                 SHORT_FRACTION * float(curve.resistance(curve.t_min_c)),

@@ -37,9 +37,10 @@ from soaklog import __version__
 from soaklog.actions import ActionOutcome, ActionRunner
 from soaklog.alarms import AlarmEngine, AlarmEvent, AlarmState, Sample
 from soaklog.clock import ServiceClock, SystemClock
-from soaklog.config import InstrumentConfig, StationConfig
+from soaklog.config import ChannelConfig, InstrumentConfig, StationConfig
 from soaklog.errors import InstrumentError, StorageError
 from soaklog.pipeline import Pipeline
+from soaklog.sensors.leads import Leads
 from soaklog.store import SampleBatch, Store, iso_utc, status_name
 from soaklog.store.alarms import AlarmRow, EventRow
 from soaklog.drivers.base import Driver, RawReading
@@ -68,22 +69,16 @@ DriverFactory = Callable[..., Driver]
 
 def default_driver_factory(cfg: InstrumentConfig, clock: ServiceClock, inputs: Sequence[str],
                            station: StationConfig | None = None) -> Driver:
-    """Build the driver an instrument's configuration names (``station`` gives per-channel settings)."""
-    if cfg.driver == "scpi":
-        from soaklog.drivers.scpi_meter import ScpiMeter
+    """Build the driver an instrument's kind makes, for the channels that use these inputs."""
+    by_input = {c.input: c for c in station.channels if c.instrument == cfg.name} if station is not None else {}
+    channels = [by_input.get(i) or _bare_channel(cfg, i) for i in inputs]
+    return cfg.kind.driver(cfg, clock, channels)
 
-        settings = None
-        if station is not None:
-            settings = {
-                c.input: (c.leads.wiring, c.range_ohm if c.range_ohm is not None else cfg.range_ohm)
-                for c in station.channels if c.instrument == cfg.name
-            }
-        return ScpiMeter.from_config(cfg, clock, channels=inputs, channel_settings=settings)
-    if cfg.driver == "serial-adc":
-        from soaklog.drivers.serial_adc import SerialAdc
 
-        return SerialAdc.from_config(cfg, clock, inputs)
-    raise InstrumentError(f"no driver for {cfg.driver!r} (instrument {cfg.name})")
+def _bare_channel(cfg: InstrumentConfig, input_name: str) -> ChannelConfig:
+    """A channel known only by its input (a driver built without its station's channels)."""
+    return ChannelConfig(name=input_name, label=input_name, instrument=cfg.name, input=input_name, sensor="",
+                         leads=Leads(cfg.wiring), excitation_a=None)
 
 
 @dataclass

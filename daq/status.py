@@ -120,7 +120,7 @@ def check_report(cfg: StationConfig) -> dict[str, Any]:
     return {
         "file": cfg.path, "station": cfg.station, "database": cfg.database,
         "instruments": [
-            {"name": i.name, "driver": i.driver, "where": i.resource or i.port, "interval_s": i.interval_s}
+            {"name": i.name, "driver": i.driver, "where": i.address, "interval_s": i.interval_s}
             for i in cfg.instruments
         ],
         "channels": channels, "alarms": [a.name for a in cfg.alarms], "warnings": list(cfg.warnings),

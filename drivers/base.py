@@ -9,6 +9,8 @@ exception: it becomes a status on the readings and a line in ``health()``.
 from __future__ import annotations
 
 import math
+import threading
+import time
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from typing import Literal, Protocol, overload
@@ -17,6 +19,8 @@ import numpy as np
 import numpy.typing as npt
 
 __all__ = [
+    "Clock",
+    "SystemClock",
     "Status",
     "STATUSES",
     "STATUS_INDEX",
@@ -232,3 +236,38 @@ def failed_scan(
 ) -> list[RawReading]:
     """A scan in which every channel failed the same way."""
     return [RawReading(ch, t_utc_s, math.nan, "ohm", status, reason) for ch in channels]
+
+
+class Clock(Protocol):
+    """What a driver needs of time: UTC for stamps, a monotonic line for its back-off."""
+
+    def utc_s(self) -> float:
+        """UTC now, seconds since the epoch, never decreasing."""
+        ...
+
+    def monotonic_s(self) -> float:
+        """The scheduling time line, seconds."""
+        ...
+
+
+class SystemClock:
+    """Real time: monotonic scheduling, UTC stamps anchored once at start (so a wall-clock step cannot reorder readings)."""
+
+    def __init__(self) -> None:
+        self._utc0 = time.time()
+        self._mono0 = time.monotonic()
+
+    def utc_s(self) -> float:
+        return self._utc0 + (time.monotonic() - self._mono0)
+
+    def monotonic_s(self) -> float:
+        return time.monotonic()
+
+    def wait_until(self, t_s: float, stop: threading.Event) -> bool:
+        """Wait until ``monotonic_s()`` reaches ``t_s``; False if ``stop`` was set first."""
+        while True:
+            left = t_s - time.monotonic()
+            if left <= 0:
+                return not stop.is_set()
+            if stop.wait(min(left, 1.0)):
+                return False

@@ -20,20 +20,18 @@ import socket
 import threading
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Literal, Protocol, TypeVar
+from typing import Literal, TypeVar
 
 import pyvisa
 from pyvisa.constants import StatusCode
 
-from soaklog.clock import SystemClock
 from soaklog.errors import (
-    ConfigError,
     ConnectionLost,
     InputError,
     InstrumentError,
     InstrumentTimeout,
 )
-from soaklog.drivers.base import STATUS_INDEX, Health, RawReading, failed_scan
+from soaklog.drivers.base import STATUS_INDEX, Clock, Health, RawReading, SystemClock, failed_scan
 from soaklog.drivers.scpi_text import (
     NOT_A_NUMBER,
     OVERLOAD,
@@ -47,8 +45,6 @@ from soaklog.drivers.scpi_text import (
 )
 from soaklog.drivers.scpi_text import shown as _shown
 
-if TYPE_CHECKING:
-    from soaklog.config import InstrumentConfig
 
 __all__ = [
     "OVERLOAD",
@@ -94,14 +90,6 @@ class Backoff:
     def delay_s(self, failures: int) -> float:
         """The wait after ``failures`` consecutive failures (1 for the first)."""
         return min(self.initial_s * self.factor ** max(failures - 1, 0), self.max_s)
-
-
-class Clock(Protocol):
-    """What the driver needs of time: UTC for stamps, a monotonic line for the back-off."""
-
-    def utc_s(self) -> float: ...
-
-    def monotonic_s(self) -> float: ...
 
 
 _T = TypeVar("_T")
@@ -211,46 +199,6 @@ class ScpiMeter:
         self._read_message = (
             f"{profile.read};{profile.event_status}" if profile.event_status else profile.read
         )
-
-    @classmethod
-    def from_config(
-        cls,
-        cfg: InstrumentConfig,
-        clock: Clock | None = None,
-        *,
-        channels: Sequence[str],
-        channel_settings: Mapping[str, tuple[Wiring, float | None]] | None = None,
-    ) -> ScpiMeter:
-        """The driver for one ``[[instrument]]`` of a station (``driver = "scpi"``) and its channels' inputs.
-
-        Raises:
-            ConfigError: not an scpi instrument, an unknown profile or command name.
-        """
-        key = f"instrument {cfg.name}"
-        if cfg.driver != "scpi":
-            raise ConfigError(f"driver is {cfg.driver!r}; ScpiMeter drives 'scpi' instruments", key=f"{key}.driver")
-        try:
-            profile = profile_named(cfg.profile, cfg.commands)
-        except InputError as exc:
-            raise ConfigError(str(exc), key=f"{key}.commands" if cfg.commands else f"{key}.profile") from None
-        try:
-            return cls(
-                cfg.name,
-                cfg.resource,
-                channels,
-                wiring=4 if cfg.wiring == 4 else 2,
-                range_ohm=cfg.range_ohm,
-                nplc=cfg.nplc,
-                offset_compensation=cfg.offset_compensation,
-                profile=profile,
-                timeout_s=cfg.timeout_s,
-                backend=cfg.backend,
-                clock=clock,
-                test_current_a=cfg.test_current_a,
-                channel_settings=channel_settings,
-            )
-        except InputError as exc:
-            raise ConfigError(str(exc), key=key) from None
 
     # --- the Driver interface -------------------------------------------------------
 

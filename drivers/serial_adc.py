@@ -42,13 +42,10 @@ import math
 import threading
 import time
 from collections.abc import Sequence
-from typing import TYPE_CHECKING, Protocol
 
 import serial
 
-from soaklog.clock import SystemClock
 from soaklog.errors import (
-    ConfigError,
     ConnectionLost,
     InputError,
     InstrumentError,
@@ -60,10 +57,8 @@ from soaklog.drivers.adcframe import (
     Reply,
     encode_command,
 )
-from soaklog.drivers.base import Health, RawReading, failed_scan
+from soaklog.drivers.base import Clock, Health, RawReading, SystemClock, failed_scan
 
-if TYPE_CHECKING:
-    from soaklog.config import InstrumentConfig
 
 __all__ = ["AdcStream", "Clock", "DEFAULT_BACKOFF_S", "SerialAdc"]
 
@@ -77,14 +72,6 @@ _CHUNK_BYTES = 4096
 #: how long close() waits for the reader thread
 _JOIN_S = 2.0
 _MAX_NOTES = 10
-
-
-class Clock(Protocol):
-    """What the driver needs of time: UTC for stamps, a monotonic line for the back-off."""
-
-    def utc_s(self) -> float: ...
-
-    def monotonic_s(self) -> float: ...
 
 
 def _fmt(x: float) -> str:
@@ -232,40 +219,6 @@ class SerialAdc:
         self._notes: list[str] = []
         #: maker, model and serial of the board found after open(); reconnecting must find the same one
         self._expected_board: str | None = None
-
-    @classmethod
-    def from_config(cls, cfg: InstrumentConfig, clock: Clock | None, inputs: Sequence[str]) -> SerialAdc:
-        """The driver for one ``[[instrument]]`` with ``driver = "serial-adc"`` and its channels' inputs.
-
-        The frame rate is set to two frames per scan interval (and per
-        timeout), within the board's 0.1…50 frames/s, so that every scan finds
-        a frame it has not returned.
-
-        Raises:
-            ConfigError: not a serial-adc instrument, or a setting the driver cannot use.
-        """
-        key = f"instrument {cfg.name}"
-        if cfg.driver != "serial-adc":
-            raise ConfigError(f"driver is {cfg.driver!r}; SerialAdc drives 'serial-adc' boards", key=f"{key}.driver")
-        try:
-            rate_hz = min(50.0, max(0.1, 2.0 / cfg.interval_s, 2.0 / cfg.timeout_s))
-            return cls(
-                cfg.name,
-                cfg.port,
-                inputs,
-                baudrate=cfg.baudrate,
-                timeout_s=cfg.timeout_s,
-                reference_ohm=cfg.reference_ohm,
-                bits=cfg.bits,
-                excitation_a=cfg.excitation_a,
-                wiring=cfg.wiring,
-                rate_hz=rate_hz,
-                clock=clock,
-            )
-        except (InputError, ZeroDivisionError) as exc:
-            raise ConfigError(str(exc), key=key) from None
-
-    # ------------------------------------------------------------ the Driver interface
 
     def open(self) -> None:
         """Open the port, identify the board, set it up and start streaming.

@@ -718,7 +718,7 @@ def test_autorange_warns():
 
 def test_autorange_leaves_the_range_and_the_current_open():
     cfg = parse_config(station(meter='range_ohm = "auto"\n'), "/lab/station.toml", today=TODAY)
-    assert cfg.instruments[0].range_ohm is None
+    assert cfg.instruments[0].range_ohm() is None
     assert cfg.chain(cfg.channels[0]).excitation is None
 
 

@@ -158,13 +158,8 @@ def config_tables(run: RunData, profile: Profile | None) -> dict[str, list[dict[
             wiring.append({"channel": c.name, "label": c.label, "instrument": c.instrument, "input": c.input,
                            "sensor": c.sensor, "wiring": c.leads.wiring, "leads": leads, "position": c.position})
         for i in cfg.instruments:
-            acc = None
-            if i.accuracy_pct_reading is not None:
-                acc = f"±({i.accuracy_pct_reading:g} % of reading + {i.accuracy_pct_range or 0:g} % of range)"
-            elif i.driver == "serial-adc":
-                acc = f"{i.bits}-bit ratiometric, reference {i.reference_ohm:g} ohm ±{i.reference_tolerance_pct:g} %"
-            instruments.append({"instrument": i.name, "driver": i.driver, "address": i.resource or i.port,
-                                "interval_s": i.interval_s, "range_ohm": i.range_ohm, "accuracy": acc,
+            instruments.append({"instrument": i.name, "driver": i.driver, "address": i.address,
+                                "interval_s": i.interval_s, "range_ohm": i.range_ohm(), "accuracy": i.kind.accuracy(i),
                                 "identity": identity.get(i.name, "")})
         for a in cfg.alarms:
             params = dict(a.params)

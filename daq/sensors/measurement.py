@@ -34,6 +34,7 @@ __all__ = [
     "MeterSpec",
     "AdcSpec",
     "MeasurementChain",
+    "chain_of",
     "Conversion",
     "LARGE_SELF_HEATING_K",
     "decade_range_ohm",
@@ -384,3 +385,23 @@ class MeasurementChain:
         if not out:
             out.append(rectangular("none", "no uncertainty source given", np.zeros(r_m.shape), "K"))
         return out
+
+
+def chain_of(
+    curve: CvdCurve,
+    *,
+    tolerance: ToleranceClass | None = None,
+    calibration: Calibration | None = None,
+    dissipation_w_per_k: float | None = None,
+    leads: Leads | None = None,
+    current_a: float | None = None,
+    voltage_v: float | None = None,
+    meter: MeterSpec | None = None,
+    adc: AdcSpec | None = None,
+) -> MeasurementChain:
+    """One channel's chain from its parts (the one place a station channel and ``soaklog convert`` build it)."""
+    excitation = None
+    if current_a is not None or voltage_v is not None:
+        excitation = Excitation(current_a, voltage_v)
+    sensor = SensorSpec(curve, tolerance, calibration, dissipation_w_per_k)
+    return MeasurementChain(sensor, leads if leads is not None else Leads(4), excitation, meter, adc)

@@ -19,7 +19,7 @@ from pathlib import Path
 import pytest
 
 from soaklog.clock import SystemClock
-from soaklog.config import InstrumentConfig
+from soaklog.config import StationConfig, parse_config
 from soaklog.errors import ConfigError, ConnectionLost, InputError, InstrumentError
 from soaklog.drivers.base import Health
 from soaklog.drivers.bench import bench_driver_overhead
@@ -407,24 +407,34 @@ def test_backoff_doubles_while_the_instrument_stays_away(
 # --- configuration ---------------------------------------------------------------------
 
 
-def _cfg(**overrides: object) -> InstrumentConfig:
-    settings: dict[str, object] = {"name": "dmm7", "driver": "scpi", "interval_s": 1.0, "timeout_s": TIMEOUT_S}
-    settings.update(overrides)
-    return InstrumentConfig(**settings)  # type: ignore[arg-type]
-
-
-def test_from_config_carries_every_setting(start_sim: StartSim) -> None:
-    sim = start_sim()
-    cfg = _cfg(
-        resource=sim.resource,
-        wiring=2,
-        range_ohm=100.0,
-        nplc=5.0,
-        offset_compensation=False,
-        test_current_a={100.0: 2e-3, 1000.0: 1e-3},
-        commands={"nplc_2w": "SENS:RES:NPLC 7,{channels}"},
+def _station(instrument: str, inputs: tuple[str, ...] = ("101",), wiring: int = 4) -> StationConfig:
+    """A station file with one meter (its keys as TOML lines) and one Pt100 per input."""
+    chans = "".join(
+        f'[[channel]]\nname = "c{i}"\ninstrument = "dmm7"\ninput = "{i}"\nsensor = "pt"\nwiring = {wiring}\n'
+        + ('lead = { ohms = 0.1 }\n' if wiring == 2 else "")
+        for i in inputs
     )
-    meter = ScpiMeter.from_config(cfg, ManualClock(), channels=("101", "102"))
+    return parse_config(
+        f'[station]\nname = "t"\n[[instrument]]\nname = "dmm7"\ndriver = "scpi"\ninterval = "1s"\n'
+        f'timeout = "{TIMEOUT_S}s"\n{instrument}\n[[sensor]]\nname = "pt"\nclass = "A"\n{chans}'
+    )
+
+
+def _meter(cfg: StationConfig, clock: ManualClock | None = None) -> ScpiMeter:
+    inst = cfg.instruments[0]
+    driver = inst.kind.driver(inst, clock or ManualClock(), cfg.channels)
+    assert isinstance(driver, ScpiMeter)
+    return driver
+
+
+def test_the_scpi_kind_carries_every_setting_to_the_driver(start_sim: StartSim) -> None:
+    sim = start_sim()
+    cfg = _station(
+        f'resource = "{sim.resource}"\nwiring = 2\nrange_ohm = 100.0\nnplc = 5.0\noffset_compensation = false\n'
+        'test_current_a = { "100" = 2e-3, "1000" = 1e-3 }\ncommands = { nplc_2w = "SENS:RES:NPLC 7,{channels}" }',
+        inputs=("101", "102"), wiring=2,
+    )
+    meter = _meter(cfg)
     try:
         meter.open()
         readings = meter.read_scan()
@@ -437,16 +447,16 @@ def test_from_config_carries_every_setting(start_sim: StartSim) -> None:
 
 
 @pytest.mark.parametrize(
-    ("overrides", "key"),
+    ("line", "key"),
     [
-        ({"profile": "nonesuch"}, "instrument dmm7.profile"),
-        ({"commands": {"raed": "READ?"}}, "instrument dmm7.commands"),
-        ({"driver": "serial-adc"}, "instrument dmm7.driver"),
+        ('profile = "nonesuch"', "instrument dmm7.profile"),
+        ('commands = { raed = "READ?" }', "instrument dmm7.commands"),
     ],
 )
-def test_from_config_refuses_what_it_cannot_drive(overrides: dict[str, object], key: str) -> None:
+def test_the_scpi_kind_refuses_what_the_driver_cannot_drive(line: str, key: str) -> None:
+    cfg = _station(f'resource = "TCPIP0::127.0.0.1::1::SOCKET"\n{line}')
     with pytest.raises(ConfigError) as info:
-        ScpiMeter.from_config(_cfg(resource="TCPIP0::127.0.0.1::1::SOCKET", **overrides), channels=("101",))
+        _meter(cfg)
     assert info.value.key == key
 
 

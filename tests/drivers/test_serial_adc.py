@@ -16,8 +16,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from soaklog.clock import SystemClock
-from soaklog.config import InstrumentConfig
-from soaklog.errors import ConfigError, ConnectionLost, InputError, InstrumentTimeout
+from soaklog.config import StationConfig, parse_config
+from soaklog.errors import ConnectionLost, InputError, InstrumentTimeout
 from soaklog.drivers.base import STATUSES, RawReading
 from soaklog.drivers.serial_adc import AdcStream, SerialAdc
 from soaklog.simulators.adc import MAKER, MODEL, AdcBoardSimulator
@@ -153,20 +153,26 @@ def test_bad_settings_are_refused(args: tuple[object, ...], kwargs: dict[str, ob
         SerialAdc(*args, **kwargs)  # type: ignore[arg-type]
 
 
-def test_from_config_takes_the_instrument_settings() -> None:
-    cfg = InstrumentConfig(
-        name="adc2", driver="serial-adc", interval_s=0.5, timeout_s=1.5, port="socket://127.0.0.1:9",
-        baudrate=57600, wiring=4, reference_ohm=390.0, bits=20, excitation_a=1e-4,
+def _station(instrument: str, inputs: tuple[str, ...]) -> StationConfig:
+    chans = "".join(
+        f'[[channel]]\nname = "c{i}"\ninstrument = "adc2"\ninput = "{i}"\nsensor = "pt"\nwiring = 4\n' for i in inputs
     )
-    driver = SerialAdc.from_config(cfg, SystemClock(), ["2", "0"])
+    return parse_config(
+        f'[station]\nname = "t"\n[[instrument]]\nname = "adc2"\ndriver = "serial-adc"\n{instrument}\n'
+        f'[[sensor]]\nname = "pt"\nclass = "A"\n{chans}'
+    )
+
+
+def test_the_serial_adc_kind_carries_the_instrument_settings_to_the_driver() -> None:
+    cfg = _station('interval = "0.5s"\ntimeout = "1.5s"\nport = "socket://127.0.0.1:9"\nbaudrate = 57600\n'
+                   'wiring = 4\nreference_ohm = 390.0\nbits = 20\nexcitation_ma = 0.1', ("2", "0"))
+    inst = cfg.instruments[0]
+    driver = inst.kind.driver(inst, SystemClock(), cfg.channels)
+    assert isinstance(driver, SerialAdc)
     assert (driver.name, driver.port, driver.inputs) == ("adc2", "socket://127.0.0.1:9", ("2", "0"))
     assert (driver.baudrate, driver.timeout_s, driver.wiring) == (57600, 1.5, 4)
     assert (driver.reference_ohm, driver.bits, driver.excitation_a) == (390.0, 20, 1e-4)
     assert driver.rate_hz == 4.0  # two frames per 0.5 s scan interval
-    with pytest.raises(ConfigError):
-        SerialAdc.from_config(InstrumentConfig(name="dmm1", driver="scpi", interval_s=1.0, timeout_s=1.0), None, ["0"])
-    with pytest.raises(ConfigError):
-        SerialAdc.from_config(cfg, None, ["nine"])
 
 
 # ---------------------------------------------------------------- on the pty

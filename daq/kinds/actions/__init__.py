@@ -1,0 +1,1 @@
+"""Built-in actions kinds, one module each (see soaklog.kinds)."""

@@ -1,0 +1,1 @@
+"""Built-in alarms kinds, one module each (see soaklog.kinds)."""

@@ -1,0 +1,1 @@
+"""Built-in profiles kinds, one module each (see soaklog.kinds)."""

@@ -1,0 +1,1 @@
+"""Built-in sensors kinds, one module each (see soaklog.kinds)."""
