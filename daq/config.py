@@ -17,6 +17,7 @@ from types import MappingProxyType
 from pathlib import Path
 from typing import Any
 
+from soaklog.drivers.base import STATUSES
 from soaklog.errors import ConfigError, InputError
 from soaklog.kinds import INSTRUMENTS
 from soaklog.kinds.instruments import COMMON_KEYS, InstrumentKind
@@ -547,9 +548,7 @@ def _leads(ck: _Checker, d: Mapping[str, Any], key: str, wiring: int | None) -> 
 _ALARM_KINDS = {"high", "high_high", "low", "low_low", "rate", "deviation", "spread", "sensor_fault", "stale", "instrument_lost"}
 _SEVERITIES = {"low", "medium", "high", "critical"}
 #: every status a stored reading can have (the store's list; a test keeps them equal)
-_READING_STATUSES = {
-    "ok", "open", "short", "overload", "out_of_range", "timeout", "lost", "garbage", "checksum", "error", "invalid", "stale",
-}
+_READING_STATUSES = frozenset(STATUSES)
 _ALARM_KEYS_ANY = {"actions", "on_delay", "off_delay", "latch", "shelvable", "in_service", "description"}
 _ALARM_KEYS_KIND: dict[str, set[str]] = {
     "high": {"limit_c", "deadband_k"},

@@ -13,7 +13,6 @@ __all__ = [
     "InstrumentError",
     "InstrumentTimeout",
     "ConnectionLost",
-    "SensorFault",
     "CalibrationError",
     "StorageError",
 ]
@@ -72,10 +71,6 @@ class InstrumentTimeout(InstrumentError, TimeoutError):
 
 class ConnectionLost(InstrumentError):
     """The link to the instrument is gone (closed socket, vanished port)."""
-
-
-class SensorFault(SoaklogError):
-    """A sensor reads open, short or out of range."""
 
 
 class StorageError(SoaklogError):

@@ -18,7 +18,7 @@ import numpy as np
 from soaklog.config import ChannelConfig, StationConfig
 from soaklog.sensors.flags import Flag
 from soaklog.sensors.measurement import Excitation, MeasurementChain
-from soaklog.store import STATUS_CODES, SampleBatch
+from soaklog.records import STATUS_CODES, SampleBatch
 from soaklog.drivers.base import STATUS_INDEX, STATUSES, RawReading, RawScan
 
 __all__ = ["ChannelPipeline", "Pipeline", "SHORT_FRACTION"]
@@ -69,9 +69,6 @@ class Pipeline:
                 SHORT_FRACTION * float(curve.resistance(curve.t_min_c)),
                 open_on_overload,
             )
-
-    def channel_for(self, instrument: str, input_name: str) -> ChannelPipeline | None:
-        return self._by_input.get((instrument, input_name))
 
     def convert(self, instrument: str, scans: Sequence[Sequence[RawReading]]) -> SampleBatch:
         """Convert one instrument's scans (any number) to one sample batch.

@@ -115,14 +115,12 @@ class Service:
         driver_factory: DriverFactory | None = None,
         new_run: bool = False,
         commit_interval_s: float | None = None,
-        on_batch: Callable[[SampleBatch], None] | None = None,
     ) -> None:
         self.config = config
         self.clock = clock or SystemClock()
         self._factory = driver_factory or default_driver_factory
         self._new_run = new_run
         self._commit_s = commit_interval_s or config.commit_interval_s
-        self._on_batch = on_batch
         self._stop = threading.Event()
         self._queue: queue.Queue[_Scan | None] = queue.Queue(maxsize=10_000)
         self._threads: list[threading.Thread] = []
@@ -325,8 +323,6 @@ class Service:
                     if len(batch):
                         pending.append(batch)
                         pending_n += len(batch)
-                        if self._on_batch is not None:
-                            self._on_batch(batch)
                     self._judge(batch, connected)
                 else:
                     scans.setdefault(item.instrument, []).append(item.readings)
@@ -343,8 +339,6 @@ class Service:
                 if len(batch):
                     pending.append(batch)
                     pending_n += len(batch)
-                    if self._on_batch is not None:
-                        self._on_batch(batch)
             scans = {}
             if pending:
                 try:
@@ -591,10 +585,3 @@ def _outcome_event(o: ActionOutcome, ch_ids: dict[str, int]) -> EventRow:
     return EventRow(int(round(o.ended_utc_s * 1000.0)), o.event_kind, o.message,
                     "info" if o.outcome == "done" else "high", ch_ids.get(channel) if channel else None, data)
 
-
-def summarise_batch(batch: SampleBatch) -> dict[str, Any]:
-    """Counts by status of a batch (for logs and tests)."""
-    codes, counts = np.unique(batch.status, return_counts=True)
-    from soaklog.store import status_name
-
-    return {status_name(int(c)): int(n) for c, n in zip(codes, counts, strict=True)}

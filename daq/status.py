@@ -5,8 +5,6 @@ from __future__ import annotations
 import math
 from typing import Any
 
-import numpy as np
-
 from soaklog.config import StationConfig
 from soaklog.sensors.flags import flag_names
 from soaklog.store import Store
@@ -97,9 +95,7 @@ def check_report(cfg: StationConfig) -> dict[str, Any]:
     for ch in cfg.channels:
         chain = cfg.chain(ch)
         curve = chain.sensor.curve
-        r = curve.resistance(np.asarray(temps, dtype=np.float64))
-        conv = chain.convert(r + chain.leads.correction_ohm(chamber_c=np.asarray(temps), ambient_c=cfg.ambient_c)
-                             if chain.leads.wiring == 2 else r, ambient_c=cfg.ambient_c)
+        conv = chain.at_temperature(temps, ambient_c=cfg.ambient_c)
         sensor = cfg.sensor(ch.sensor)
         vouch = (
             f"calibration {sensor.calibration.certificate} U = {sensor.calibration.expanded_uncertainty_c:g} K"

@@ -13,7 +13,7 @@ import threading
 import time
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import Literal, Protocol, overload
+from typing import Literal, Protocol, get_args, overload
 
 import numpy as np
 import numpy.typing as npt
@@ -31,21 +31,11 @@ __all__ = [
     "failed_scan",
 ]
 
+#: every status a reading can carry; ``ok`` is the only one with a value. The one
+#: definition of the statuses: the store's codes, the alarm configuration and the
+#: README's list derive from it. A status's position is its code in every store
+#: file ever written, so append new ones at the end and never reorder.
 Status = Literal[
-    "ok",
-    "open",
-    "short",
-    "overload",
-    "out_of_range",
-    "timeout",
-    "lost",
-    "garbage",
-    "checksum",
-    "error",
-]
-
-#: every status a reading can carry; ``ok`` is the only one with a value
-STATUSES: tuple[str, ...] = (
     "ok",  # a value
     "open",  # sensor open (overload on the lowest range, or the board's open code)
     "short",  # sensor shorted (a resistance no RTD of its R0 can have)
@@ -56,7 +46,10 @@ STATUSES: tuple[str, ...] = (
     "garbage",  # an answer that does not parse
     "checksum",  # a frame whose checksum is wrong
     "error",  # the instrument reported an error for this reading
-)
+    "invalid",  # a value the metrology cannot convert honestly (set by the pipeline)
+]
+
+STATUSES: tuple[str, ...] = get_args(Status)
 
 #: position of each status in STATUSES, for columnar scans
 STATUS_INDEX: dict[str, int] = {s: i for i, s in enumerate(STATUSES)}
@@ -169,9 +162,6 @@ class RawScan(Sequence[RawReading]):
     def __iter__(self) -> Iterator[RawReading]:
         for i in range(len(self)):
             yield self[i]
-
-    def current_of(self, i: int) -> float | None:
-        return self.current_a[i] if isinstance(self.current_a, (list, tuple)) else self.current_a
 
 
 @dataclass

@@ -2,7 +2,8 @@
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, ClassVar, cast
+from collections import deque
+from typing import ClassVar, Protocol, cast
 
 from rich.table import Table
 from rich.text import Text
@@ -15,8 +16,9 @@ from textual.screen import ModalScreen, Screen
 from textual.widgets import DataTable, Input, OptionList, Static
 from textual.widgets.option_list import Option
 
-from soaklog.dashboard.records import WINDOW_TITLE, Snapshot, TrendRequest
+from soaklog.dashboard.records import WINDOW_TITLE, ActionRow, EventRow, Snapshot, TrendRequest, WindowName
 from soaklog.dashboard.table import LiveTable
+from soaklog.dashboard.units import Unit
 from soaklog.dashboard.widgets import (
     SAFETY_CAUTION,
     AlarmBoard,
@@ -32,8 +34,32 @@ from soaklog.dashboard.widgets import (
     TrendPanel,
 )
 
-if TYPE_CHECKING:
-    from soaklog.dashboard.app import DashboardApp
+
+
+class Dashboard(Protocol):
+    """What the views need of the app that shows them (the app satisfies it; the views never import it)."""
+
+    header_note: str
+    shown_path: str | None
+    unit: Unit
+    window: WindowName
+    graph_channels: tuple[str, ...]
+    fit_all: bool
+    snapshot: Snapshot | None
+    events: deque[EventRow]
+    generation: int
+
+    @property
+    def actions(self) -> list[ActionRow]: ...
+
+    def wake(self) -> None: ...
+
+    def plot_channel(self, name: str) -> None: ...
+
+    def step_window(self, step: int) -> None: ...
+
+    def request(self, kind: str, *, target: str = "", note: str = "", what: str = "",
+                for_s: float | None = None, quiet: bool = False) -> None: ...
 
 __all__ = [
     "GLOBAL_KEYS",
@@ -84,8 +110,8 @@ class View(Screen[None]):
     KEYS: ClassVar[list[tuple[str, str]]] = []
 
     @property
-    def dash(self) -> DashboardApp:
-        return cast("DashboardApp", self.app)
+    def dash(self) -> Dashboard:
+        return cast(Dashboard, self.app)
 
     def compose(self) -> ComposeResult:
         yield RunHeader(note=self.dash.header_note, path=self.dash.shown_path, id="header")

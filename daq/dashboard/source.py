@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import getpass
 import socket
-import sqlite3
 import time
 from collections import deque
 from collections.abc import Callable
@@ -37,7 +36,6 @@ from soaklog.dashboard.records import (
     order_alarms,
 )
 from soaklog.dashboard.units import parse_utc_ms
-from soaklog.errors import StorageError
 from soaklog.store import Store
 
 __all__ = ["RATE_WINDOW_S", "StoreSource", "default_actor", "submit_operator_action"]
@@ -154,12 +152,6 @@ class StoreSource:
         Raises:
             StorageError: the file cannot be read (or holds no run).
         """
-        try:
-            return self._poll(request)
-        except sqlite3.Error as exc:
-            raise StorageError(f"cannot read {self.db_path}: {exc}") from exc
-
-    def _poll(self, request: TrendRequest | None) -> Snapshot:
         reset = self._refresh_run()
         run = self._run
         assert run is not None

@@ -90,10 +90,6 @@ class LiveTable(ScrollView, can_focus=True):
         return len(self._keys)
 
     @property
-    def row_keys(self) -> tuple[str, ...]:
-        return tuple(self._keys)
-
-    @property
     def highlighted_key(self) -> str | None:
         return self._keys[self.cursor_row] if 0 <= self.cursor_row < len(self._keys) else None
 

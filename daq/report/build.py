@@ -62,10 +62,6 @@ class ReportResult:
     summary: Mapping[str, Any]
     elapsed_s: float
 
-    @property
-    def paths(self) -> tuple[Path, ...]:
-        return (self.html, self.json, *self.csv, *self.png)
-
 
 def load_profile_file(path: str | Path) -> Profile:
     """A profile from a TOML file: a ``[profile]`` table, or the keys at the top level.

@@ -69,10 +69,6 @@ class Series:
     def end_s(self) -> float:
         return self.t0_s + self.n * self.width_s
 
-    def t_start(self) -> FloatArray:
-        """Start time of every bucket (s)."""
-        return self.t0_s + self.width_s * np.arange(self.n, dtype=np.float64)
-
     def t_mid(self) -> FloatArray:
         """Middle of every bucket (s): where a bucket mean sits on a steady ramp."""
         return self.t0_s + self.width_s * (np.arange(self.n, dtype=np.float64) + 0.5)

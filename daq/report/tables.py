@@ -200,17 +200,14 @@ def u_at_test(run: RunData, profile: Profile | None) -> dict[str, float | None]:
     cfg = run.config
     if cfg is None or not temps:
         return {}
-    from soaklog.status import check_report
-
-    try:
-        rep = check_report(cfg)
-    except Exception:
-        return {}
     out: dict[str, float | None] = {}
-    for ch in rep["channels"]:
-        us = [u["expanded_uncertainty_c"] for u in ch["uncertainty_at"]
-              if any(abs(u["t_c"] - t) < 1e-9 for t in temps) and u["expanded_uncertainty_c"] is not None]
-        out[ch["name"]] = max(us) if us else None
+    for ch in cfg.channels:
+        try:
+            conv = cfg.chain(ch).at_temperature(temps, ambient_c=cfg.ambient_c)
+        except Exception:
+            return {}
+        us = [u for u in conv.expanded_uncertainty_c.tolist() if not math.isnan(u)]
+        out[ch.name] = max(us) if us else None
     return out
 
 

@@ -292,6 +292,19 @@ class MeasurementChain:
         budget = combine(contributions)
         return Conversion(r_m, r_s, corr, t_ind, rise, t, flags, budget)
 
+    def at_temperature(self, t_c: npt.ArrayLike, *, ambient_c: float = 20.0) -> Conversion:
+        """What the chain gives for a sensor at ``t_c``: the reading it would get, converted.
+
+        The instrument reads the sensor's resistance plus, on a 2-wire input,
+        both leads; the budget of the result is the uncertainty the channel
+        can reach at those temperatures (what ``check`` and the report show).
+        """
+        t = np.asarray(t_c, dtype=np.float64)
+        r = self.sensor.curve.resistance(t)
+        if self.leads.wiring == 2:
+            r = r + self.leads.correction_ohm(chamber_c=t, ambient_c=ambient_c)
+        return self.convert(r, ambient_c=ambient_c)
+
     def _budget(
         self,
         r_m: FloatArray,

@@ -15,6 +15,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from soaklog.errors import StorageError
+from soaklog.store.reader import translated
 from soaklog.store.schema import iso_utc
 
 __all__ = ["AlarmStoreMixin", "AlarmRow", "EventRow"]
@@ -99,6 +100,7 @@ class AlarmStoreMixin:
             raise StorageError(f"cannot record {len(events)} events in {self.path}: {exc}") from exc
         return ids
 
+    @translated("the alarm states")
     def alarm_states(self, run_id: int) -> list[AlarmRow]:
         """The run's stored alarm points (a restarted service continues from them)."""
         if not self._has_alarm_table():

@@ -8,9 +8,11 @@ from __future__ import annotations
 import json
 import math
 import sqlite3
-from collections.abc import Iterator
+import functools
+import inspect
+from collections.abc import Callable, Iterator
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar, cast
 
 import numpy as np
 import numpy.typing as npt
@@ -20,7 +22,35 @@ from soaklog.errors import StorageError
 
 from soaklog.store.schema import TEMP_SCALE, U_SCALE, iso_utc, status_name
 
-__all__ = ["ReadingMixin"]
+__all__ = ["ReadingMixin", "translated"]
+
+_F = TypeVar("_F", bound=Callable[..., Any])
+
+
+def translated(what: str) -> Callable[[_F], _F]:
+    """Turn a ``sqlite3.Error`` raised by the method into a ``StorageError`` naming ``what`` and the file."""
+
+    def wrap(fn: _F) -> _F:
+        if inspect.isgeneratorfunction(fn):
+            @functools.wraps(fn)
+            def gen(self: Any, *args: Any, **kwargs: Any) -> Any:
+                try:
+                    yield from fn(self, *args, **kwargs)
+                except sqlite3.Error as exc:
+                    raise StorageError(f"cannot read {what} from {self.path}: {exc}") from exc
+
+            return cast(_F, gen)
+
+        @functools.wraps(fn)
+        def call(self: Any, *args: Any, **kwargs: Any) -> Any:
+            try:
+                return fn(self, *args, **kwargs)
+            except sqlite3.Error as exc:
+                raise StorageError(f"cannot read {what} from {self.path}: {exc}") from exc
+
+        return cast(_F, call)
+
+    return wrap
 
 
 class ReadingMixin:
@@ -32,6 +62,7 @@ class ReadingMixin:
 
     # ------------------------------------------------------------ reading
 
+    @translated("the latest readings")
     def latest(self, run_id: int) -> list[dict[str, Any]]:
         """Each channel's newest reading, newest good one, and min/max since the run started."""
         rows = self._conn.execute(
@@ -51,6 +82,7 @@ class ReadingMixin:
             })
         return out
 
+    @translated("the events")
     def events(self, run_id: int, *, after_id: int = 0, limit: int = 10_000) -> list[dict[str, Any]]:
         rows = self._conn.execute(
             "SELECT e.id, e.t_ms, e.kind, c.name, e.severity, e.message, e.data FROM events e "
@@ -63,6 +95,7 @@ class ReadingMixin:
             for r in rows
         ]
 
+    @translated("the operator requests")
     def pending_operator_actions(self) -> list[dict[str, Any]]:
         """Operator requests the service has not applied yet, oldest first."""
         rows = self._conn.execute(
@@ -74,6 +107,7 @@ class ReadingMixin:
             for r in rows
         ]
 
+    @translated("the operator requests")
     def operator_actions(self, *, after_id: int = 0, limit: int = 10_000) -> list[dict[str, Any]]:
         """Every operator request with what became of it."""
         rows = self._conn.execute(
@@ -83,6 +117,7 @@ class ReadingMixin:
         keys = ("id", "t_ms", "kind", "target", "note", "actor", "until_ms", "applied_ms", "outcome")
         return [dict(zip(keys, r, strict=True)) for r in rows]
 
+    @translated("the alarm states")
     def alarms(self, run_id: int, *, active_only: bool = False) -> list[dict[str, Any]]:
         """The run's alarms and their states (empty until the alarm engine has stored any).
 
@@ -101,6 +136,7 @@ class ReadingMixin:
     def _alarm_rows(self, run_id: int, *, active_only: bool) -> list[dict[str, Any]]:
         raise NotImplementedError("the alarm_states table exists but this soaklog cannot read it")
 
+    @translated("the instruments")
     def instruments(self, run_id: int) -> list[dict[str, Any]]:
         rows = self._conn.execute(
             "SELECT name, updated_ms, connected, identity, health FROM instruments WHERE run_id = ? ORDER BY name",
@@ -112,6 +148,7 @@ class ReadingMixin:
             for r in rows
         ]
 
+    @translated("the run's time span")
     def time_span(self, run_id: int) -> tuple[int | None, int | None]:
         """First and last time stamp (ms) of the run's readings."""
         row = self._conn.execute(
@@ -146,6 +183,7 @@ class ReadingMixin:
         hi = self._rowid_at_minute(run_id, to_ms // 60_000 + 1)
         return lo, hi
 
+    @translated("readings")
     def raw_window(
         self, ch: int, from_ms: int, to_ms: int
     ) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.float64], npt.NDArray[np.float64]]:
@@ -162,6 +200,7 @@ class ReadingMixin:
         arr = np.array(rows, dtype=np.float64)  # None -> nan
         return arr[:, 0].astype(np.int64), arr[:, 1] / TEMP_SCALE, arr[:, 2] / U_SCALE
 
+    @translated("a trend")
     def trend(self, ch: int, from_ms: int, to_ms: int, *, max_points: int = 2000) -> dict[str, Any]:
         """A channel's trend over a window with at most ``max_points`` buckets.
 
@@ -190,6 +229,7 @@ class ReadingMixin:
         t_mid = ((arr[:, 0] * minutes + minutes / 2.0) * 60_000).astype(np.int64)
         return {"source": "rollup", "t_ms": t_mid, "mean_c": mean, "min_c": arr[:, 2], "max_c": arr[:, 3]}
 
+    @translated("the run summary")
     def summary(self, run_id: int) -> list[dict[str, Any]]:
         """Per channel over the whole run: count, readings without temperature, min, max, mean, largest U.
 
@@ -210,6 +250,7 @@ class ReadingMixin:
             })
         return out
 
+    @translated("readings")
     def iter_readings(
         self, run_id: int, *, from_ms: int | None = None, to_ms: int | None = None, batch: int = 50_000
     ) -> Iterator[list[tuple[Any, ...]]]:
@@ -245,6 +286,7 @@ class ReadingMixin:
                 ))
             yield out
 
+    @translated("the integrity check")
     def integrity_check(self) -> str:
         return str(self._conn.execute("PRAGMA integrity_check").fetchone()[0])
 

@@ -4,40 +4,12 @@ from __future__ import annotations
 
 from datetime import UTC, datetime
 
-from soaklog.errors import StorageError
+from soaklog.records import STATUS_CODES, status_code, status_name
 
 __all__ = ["STATUS_CODES", "TEMP_SCALE", "U_SCALE", "MIGRATIONS", "SCHEMA_VERSION", "status_code", "status_name", "iso_utc", "statements"]
 
-#: reading statuses as stored (0 = ok takes no space in a SQLite record)
-STATUS_CODES: dict[str, int] = {
-    "ok": 0,
-    "open": 1,
-    "short": 2,
-    "overload": 3,
-    "out_of_range": 4,
-    "timeout": 5,
-    "lost": 6,
-    "garbage": 7,
-    "checksum": 8,
-    "error": 9,
-    "invalid": 10,
-    "stale": 11,
-}
-_STATUS_NAMES = {v: k for k, v in STATUS_CODES.items()}
-
 TEMP_SCALE = 1_000_000  # stored temperature: micro-degrees Celsius
 U_SCALE = 10_000  # stored expanded uncertainty: units of 0.1 mK
-
-
-def status_code(name: str) -> int:
-    try:
-        return STATUS_CODES[name]
-    except KeyError:
-        raise StorageError(f"unknown reading status {name!r}") from None
-
-
-def status_name(code: int) -> str:
-    return _STATUS_NAMES.get(int(code), f"status_{int(code)}")
 
 
 def iso_utc(t_ms: int | float | None) -> str | None:

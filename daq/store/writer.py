@@ -13,6 +13,7 @@ import numpy.typing as npt
 from soaklog.errors import StorageError
 
 from soaklog.store.records import BATCH_FIELDS, ChannelInfo, RunInfo, SampleBatch, config_digest
+from soaklog.store.reader import translated
 from soaklog.store.schema import TEMP_SCALE, U_SCALE, iso_utc
 
 __all__ = ["WritingMixin"]
@@ -26,6 +27,7 @@ class WritingMixin:
 
     # ------------------------------------------------------------ runs and channels
 
+    @translated("the runs")
     def begin_run(
         self,
         config_text: str,
@@ -61,9 +63,11 @@ class WritingMixin:
         )
         return RunInfo(int(cur.lastrowid or 0), False, None, digest)
 
+    @translated("the runs")
     def end_run(self, run_id: int, *, now_ms: int) -> None:
         self._conn.execute("UPDATE runs SET ended_utc = ? WHERE id = ?", (iso_utc(now_ms), run_id))
 
+    @translated("the channels")
     def ensure_channels(
         self, run_id: int, channels: Sequence[tuple[str, str, str, str]]
     ) -> dict[str, int]:
@@ -78,11 +82,13 @@ class WritingMixin:
         rows = self._conn.execute("SELECT name, id FROM channels WHERE run_id = ?", (run_id,)).fetchall()
         return {str(n): int(i) for n, i in rows}
 
+    @translated("the runs")
     def runs(self) -> list[dict[str, Any]]:
         return list(self.db.query(
             "SELECT id, started_utc, ended_utc, station, name, config_sha256, config_path FROM runs ORDER BY id"
         ))
 
+    @translated("the run")
     def run(self, run_id: int | None = None) -> dict[str, Any]:
         """One run's row (the newest when ``run_id`` is None)."""
         if run_id is None:
@@ -95,6 +101,7 @@ class WritingMixin:
             )
         return rows[0]
 
+    @translated("the channels")
     def channels(self, run_id: int) -> list[ChannelInfo]:
         rows = self._conn.execute(
             "SELECT id, run_id, name, label, instrument, raw_unit FROM channels WHERE run_id = ? ORDER BY id",

@@ -154,8 +154,14 @@ def test_every_problem_of_several_alarms_at_once():
     assert {k for k, _ in got} == {"alarm[1].limit_c", "alarm[2].limit_k_per_min", "alarm[3].stale_after"}
 
 
-def test_the_reading_statuses_known_to_alarms_are_the_stores():
+def test_the_reading_statuses_known_to_alarms_are_the_ones_the_readme_documents():
+    import re
+    from pathlib import Path
+
     from soaklog.config import _READING_STATUSES
     from soaklog.store import STATUS_CODES
 
-    assert _READING_STATUSES == set(STATUS_CODES)
+    readme = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
+    para = readme[readme.index("`status` is `ok` or a short reason:"):]
+    documented = set(re.findall(r"`([a-z_]+)`", para[:para.index(".")]))
+    assert documented - {"status"} == set(_READING_STATUSES) == set(STATUS_CODES)
