@@ -36,13 +36,6 @@ SIMULATOR_PLACES = (
     ("bench", "the benchmarks measure against the simulators, imported inside the functions that run them"),
 )
 
-#: drivers' imports from above the driver layer that are being removed, and why
-DRIVERS_PENDING = {
-    "soaklog.clock": "drivers take plain settings: being done in the registry work",
-    "soaklog.config": "drivers take plain settings: being done in the registry work",
-}
-
-
 @dataclass(frozen=True)
 class Import:
     """One import statement's target, where it is, and whether it runs when the module is imported."""
@@ -242,23 +235,14 @@ def test_viewers_do_not_handle_sqlite_errors_themselves():
     assert [m for m in viewers if _names_sqlite(MODULES[m])] == []
 
 
-def _drivers_reach_above(allowed: dict[str, str]) -> list[str]:
-    return sorted(
+def test_drivers_import_nothing_above_them():
+    # drivers take plain settings: nothing from the config, the clock or the store (DESIGN.md "Data flow")
+    above = sorted(
         f"{i.module}:{i.line} imports {i.target}" for i in IMPORTS
         if i.module.startswith("soaklog.drivers") and i.target.startswith("soaklog")
         and not i.target.startswith("soaklog.drivers") and i.target != "soaklog.errors"
-        and not (i.module == "soaklog.drivers.bench" and i.target.startswith("soaklog.simulators"))
-        and i.target not in allowed
     )
-
-
-def test_drivers_import_nothing_above_them_but_what_is_being_removed():
-    assert _drivers_reach_above(DRIVERS_PENDING) == []
-
-
-@pytest.mark.xfail(strict=True, reason="drivers take plain settings: being done in the registry work")
-def test_drivers_import_nothing_above_them():
-    assert _drivers_reach_above({}) == []
+    assert above == []
 
 
 def test_the_product_starts_the_simulators_only_in_demo_simulate_and_the_benchmarks():
