@@ -1,9 +1,10 @@
-"""The alarm commands: ``soaklog ack`` and ``soaklog check --test-actions``, and the alarm latency figure.
+"""What the alarm commands run: ``soaklog ack`` and ``soaklog check --test-actions``, and the alarm latency figure.
 
 ``soaklog ack`` never touches an alarm itself: it writes a request into the
 store's operator actions table, which the running logger applies and records
 (DESIGN.md: the service is the only writer of alarm states), and waits for the
-outcome. Also runnable on its own: ``python -m soaklog.alarms_cli ack …``.
+outcome. Its parser is :mod:`soaklog.commands.ack`, and it runs (and its
+errors are reported) through ``soaklog.cli.main``, like every command.
 """
 
 from __future__ import annotations
@@ -16,16 +17,16 @@ import statistics
 import sys
 import time
 from collections.abc import Callable, Sequence
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from soaklog.cliargs import DEFAULT_DB, db_path
-from soaklog.config import StationConfig
-from soaklog.errors import InputError, SoaklogError
+from soaklog.cliargs import db_path
+from soaklog.errors import InputError
 
-__all__ = ["add_ack_parser", "cmd_ack", "test_actions", "bench_alarm_latency", "main", "ACTIONS_CAUTION"]
+if TYPE_CHECKING:  # the config (and numpy with it) loads only where a command needs it
+    from soaklog.config import StationConfig
 
-#: how long ``ack`` waits for the logger to apply the request (it does so every commit interval, ≤ 1 s)
-DEFAULT_WAIT_S = 10.0
+__all__ = ["cmd_ack", "test_actions", "bench_alarm_latency", "ACTIONS_CAUTION"]
+
 #: states in which an alarm waits for an acknowledgement
 _WAITING = ("unacknowledged", "returned_unacknowledged", "latched")
 
@@ -37,32 +38,6 @@ ACTIONS_CAUTION = (
 
 
 # ---------------------------------------------------------------- soaklog ack
-
-
-def add_ack_parser(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:  # type: ignore[type-arg]
-    """Add ``ack`` to a subparsers action; its ``func(args)`` returns the exit status."""
-    p = sub.add_parser(
-        "ack", help="acknowledge alarms (the running logger applies it and records who and when)",
-        description=(
-            "Acknowledge one alarm (its id, such as air-over-temperature:air-supply, or a rule name for all of "
-            "its channels) or --all. A latched alarm whose condition has gone is reset. The request goes "
-            "through the store's operator actions table: the running logger applies it, records it with the "
-            "time, who and the note in events_v, and this command prints what it did. An acknowledgement "
-            "never clears an alarm whose condition is still there."
-        ),
-    )
-    p.add_argument("alarm", nargs="?", metavar="ALARM", help="alarm id or rule name (see soaklog status)")
-    p.add_argument("config", nargs="?", metavar="CONFIG", help="station file (its database is used)")
-    p.add_argument("--all", action="store_true", help="every alarm that waits for an acknowledgement")
-    p.add_argument("--note", default="", metavar="TEXT", help="a note recorded with the acknowledgement")
-    p.add_argument("--db", metavar="PATH", help=f"database file (default: {DEFAULT_DB}, as the demo writes it)")
-    p.add_argument("--actor", metavar="NAME", help="who acknowledges (default: user@host)")
-    p.add_argument("--wait", type=float, default=DEFAULT_WAIT_S, metavar="S",
-                   help=f"seconds to wait for the logger to apply it (default {DEFAULT_WAIT_S:g}; 0: do not wait)")
-    p.set_defaults(func=cmd_ack)
-    return p
-
-
 
 
 def _matches(alarms: Sequence[dict[str, Any]], target: str) -> list[dict[str, Any]]:
@@ -259,29 +234,3 @@ def _wait_count(database: str, run_id: int, kind: str, count: int, deadline: flo
             return True
         time.sleep(0.05)
     return False
-
-
-# ---------------------------------------------------------------- on its own
-
-
-def main(argv: Sequence[str] | None = None) -> int:
-    """``python -m soaklog.alarms_cli ack …`` (the same command ``soaklog ack`` runs)."""
-    parser = argparse.ArgumentParser(prog="soaklog")
-    parser.add_argument("--debug", action="store_true", help="show tracebacks on errors")
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    add_ack_parser(sub)
-    args = parser.parse_args(argv)
-    if not getattr(args, "func", None):
-        parser.print_help()
-        return 2
-    try:
-        return int(args.func(args) or 0)
-    except SoaklogError as exc:
-        if args.debug:
-            raise
-        print(f"soaklog: {exc}", file=sys.stderr)
-        return exc.exit_code
-
-
-if __name__ == "__main__":
-    sys.exit(main())

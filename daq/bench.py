@@ -12,6 +12,7 @@ from typing import Any
 
 import numpy as np
 
+from soaklog.benchkit import station_text
 from soaklog.sensors.cvd import IEC_60751, resistance, temperature
 
 __all__ = ["run_bench", "CONTRACT_KEYS"]
@@ -66,21 +67,6 @@ def bench_convert(n: int = 10_000_000, repeats: int = 5, seed: int = 20261201) -
     }
 
 
-def _station_text(n_channels: int, database: str, *, interval: str = "1s") -> str:
-    """A station file of ``n_channels`` 4-wire Pt100 class A channels on one scanning meter."""
-    lines = [
-        '[station]', 'name = "bench"', f'database = "{database}"', "",
-        "[[instrument]]", 'name = "meter"', 'driver = "scpi"',
-        'resource = "TCPIP0::127.0.0.1::1::SOCKET"', f'interval = "{interval}"', "range_ohm = 1000.0",
-        "accuracy = { pct_reading = 0.01, pct_range = 0.004 }", "",
-        "[[sensor]]", 'name = "pt100"', 'class = "A"', 'element = "wire"', "dissipation_mw_per_k = 10.0", "",
-    ]
-    for i in range(n_channels):
-        lines += ["[[channel]]", f'name = "ch{i + 1:02d}"', 'instrument = "meter"', f'input = "{101 + i}"',
-                  'sensor = "pt100"', ""]
-    return "\n".join(lines)
-
-
 def _replies(n_scans: int, n_channels: int, seed: int) -> list[str]:
     """SCPI scan replies as a meter sends them: a slow 20…125 °C cycle plus noise, 9 significant digits."""
     rng = np.random.default_rng(seed)
@@ -126,7 +112,7 @@ def _ingest_round(n_channels: int, n_scans: int, seed: int) -> dict[str, Any]:
     replies = _replies(n_scans, n_channels, seed)
     with tempfile.TemporaryDirectory(prefix="soaklog-bench-") as tmp:
         db = str(Path(tmp) / "ingest.db")
-        cfg = parse_config(_station_text(n_channels, db), str(Path(tmp) / "bench.toml"))
+        cfg = parse_config(station_text(n_channels, db), str(Path(tmp) / "bench.toml"))
         inputs = [c.input for c in cfg.channels]
         store = Store.open(db)
         info = store.begin_run(cfg.text, now_ms=1_800_000_000_000)
@@ -314,7 +300,7 @@ def bench_memory(hours: float = 24.0, n_channels: int = 32, wall_s: float = 60.0
     speed = hours * 3600.0 / wall_s
     with tempfile.TemporaryDirectory(prefix="soaklog-bench-") as tmp:
         db = str(Path(tmp) / "memory.db")
-        cfg = parse_config(_station_text(n_channels, db), str(Path(tmp) / "bench.toml"))
+        cfg = parse_config(station_text(n_channels, db), str(Path(tmp) / "bench.toml"))
         sim = SimClock(speed)
         svc = Service(cfg, clock=AcceleratedClock(sim, speed=speed, epoch_utc_s=1_800_000_000.0),
                       driver_factory=_SyntheticMeter, new_run=True)
@@ -356,7 +342,7 @@ def bench_service_cpu(seconds: float = 20.0, n_channels: int = 32) -> dict[str, 
 
     with tempfile.TemporaryDirectory(prefix="soaklog-bench-") as tmp:
         db = str(Path(tmp) / "cpu.db")
-        cfg = parse_config(_station_text(n_channels, db), str(Path(tmp) / "bench.toml"))
+        cfg = parse_config(station_text(n_channels, db), str(Path(tmp) / "bench.toml"))
         svc = Service(cfg, clock=SystemClock(), driver_factory=_SyntheticMeter, new_run=True)
         svc.start()
         time.sleep(2.0)  # start-up is not the steady state

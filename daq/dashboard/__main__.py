@@ -2,23 +2,14 @@
 
 from __future__ import annotations
 
-import argparse
 import sys
 
-from soaklog.dashboard.cli import add_parser
-from soaklog.errors import SoaklogError
+from soaklog.cli import main as cli_main
 
 
 def main(argv: list[str] | None = None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m soaklog.dashboard")
-    sub = parser.add_subparsers(dest="command")
-    add_parser(sub)
-    args = parser.parse_args(["dash", *(sys.argv[1:] if argv is None else argv)])
-    try:
-        return int(args.func(args))
-    except SoaklogError as exc:
-        print(f"soaklog: {exc}", file=sys.stderr)
-        return exc.exit_code
+    """``soaklog dash`` with these arguments, through the CLI's one error path."""
+    return cli_main(["dash", *(sys.argv[1:] if argv is None else argv)])
 
 
 if __name__ == "__main__":

@@ -1,6 +1,6 @@
 """The report's scale figure: a 1000-hour, 32-channel run reported from its store, timed (not a test).
 
-The store is built as ``daq.bench.bench_trend`` builds it, through the real
+The store is built as ``soaklog.bench.bench_trend`` builds it, through the real
 writer: one reading per channel per minute for the first 999 hours (which
 gives the minute rollups exactly the rows a 1 Hz run has, and those are all a
 run this long is analysed from) and 1 Hz for the last hour. The readings
@@ -45,12 +45,12 @@ def _profile_text() -> str:
 
 
 def _build(db: str, n_channels: int, hours: float, seed: int) -> tuple[int, int]:
-    from soaklog.bench import _station_text
+    from soaklog.benchkit import station_text
     from soaklog.store import SampleBatch, Store
 
     rng = np.random.default_rng(seed)
     store = Store.open(db)
-    text = _station_text(n_channels, db) + _profile_text()
+    text = station_text(n_channels, db) + _profile_text()
     t0 = 1_800_000_000_000
     info = store.begin_run(text, now_ms=t0, station="bench", name="1000 h report benchmark")
     ids = np.asarray(list(store.ensure_channels(

@@ -15,7 +15,7 @@ HIGH = "air-over-temperature"
 
 
 def ack_cli(*args: str, timeout: float = 60) -> subprocess.CompletedProcess[str]:
-    return subprocess.run([sys.executable, "-m", "soaklog.alarms_cli", "ack", *args], capture_output=True, text=True,
+    return subprocess.run([sys.executable, "-m", "soaklog", "ack", *args], capture_output=True, text=True,
                           timeout=timeout)
 
 

@@ -18,13 +18,8 @@ pytestmark = pytest.mark.skipif(shutil.which("tmux") is None, reason="tmux is no
 
 
 def _dash_command(db: Path) -> list[str]:
-    """``python -m soaklog dash`` once the CLI has it; until then the same parser through the package."""
-    from soaklog.cli import build_parser
-
-    sub = next(a for a in build_parser()._actions if a.dest == "command")
-    if "dash" in sub.choices:  # type: ignore[operator]
-        return [sys.executable, "-m", "soaklog", "dash", "--db", str(db)]
-    return [sys.executable, "-m", "soaklog.dashboard", "--db", str(db)]
+    """``python -m soaklog dash``, as a user runs it."""
+    return [sys.executable, "-m", "soaklog", "dash", "--db", str(db)]
 
 
 class Tmux:

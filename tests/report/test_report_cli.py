@@ -10,32 +10,9 @@ from pathlib import Path
 
 import pytest
 
-from soaklog.report.cli import add_parser
+from soaklog.commands.report import add_parser
 
-# until the lead wires `report` into daq/cli.py, the command is run through the same add_parser
-_SHIM = (
-    "import argparse, sys\n"
-    "from soaklog.report.cli import add_parser\n"
-    "from soaklog.errors import SoaklogError\n"
-    "p = argparse.ArgumentParser(prog='soaklog')\n"
-    "sub = p.add_subparsers(dest='command')\n"
-    "add_parser(sub)\n"
-    "a = p.parse_args(sys.argv[1:])\n"
-    "try:\n"
-    "    sys.exit(a.func(a))\n"
-    "except SoaklogError as exc:\n"
-    "    print(f'soaklog: {exc}', file=sys.stderr)\n"
-    "    sys.exit(exc.exit_code)\n"
-)
-
-
-def _report_cmd() -> list[str]:
-    from soaklog.cli import build_parser
-
-    sub = next(a for a in build_parser()._actions if isinstance(a, argparse._SubParsersAction))
-    if "report" in sub.choices:
-        return [sys.executable, "-m", "soaklog", "report"]
-    return [sys.executable, "-c", _SHIM, "report"]
+REPORT = [sys.executable, "-m", "soaklog", "report"]
 
 
 def test_the_parser_has_help_and_the_documented_options() -> None:
@@ -53,7 +30,7 @@ def test_report_after_a_short_demo(tmp_path: Path) -> None:
                           capture_output=True, text=True, timeout=120)
     assert demo.returncode == 0, demo.stderr
     out = tmp_path / "report"
-    p = subprocess.run(_report_cmd() + ["--db", str(db), "--out", str(out)], capture_output=True, text=True,
+    p = subprocess.run(REPORT + ["--db", str(db), "--out", str(out)], capture_output=True, text=True,
                        timeout=120)
     assert p.returncode == 0, p.stderr
     assert "report-run1.html" in p.stdout
@@ -68,7 +45,7 @@ def test_report_after_a_short_demo(tmp_path: Path) -> None:
 
 
 def test_a_missing_database_exits_1_with_one_line(tmp_path: Path) -> None:
-    p = subprocess.run(_report_cmd() + ["--db", str(tmp_path / "none.db"), "--out", str(tmp_path)],
+    p = subprocess.run(REPORT + ["--db", str(tmp_path / "none.db"), "--out", str(tmp_path)],
                        capture_output=True, text=True, timeout=60)
     assert p.returncode == 1
     assert "no database" in p.stderr and "Traceback" not in p.stderr
@@ -80,7 +57,7 @@ def test_a_bad_profile_exits_2(tmp_path: Path) -> None:
     run = build_sim_store(tmp_path / "sim.db", door_s=None)
     bad = tmp_path / "bad.toml"
     bad.write_text('kind = "cycle"\nlow_c = 0.0\n')
-    p = subprocess.run(_report_cmd() + ["--db", str(run.db), "--profile", str(bad), "--out", str(tmp_path / "o")],
+    p = subprocess.run(REPORT + ["--db", str(run.db), "--profile", str(bad), "--out", str(tmp_path / "o")],
                        capture_output=True, text=True, timeout=60)
     assert p.returncode == 2
     assert "high_c" in p.stderr and "cycles" in p.stderr
@@ -88,5 +65,5 @@ def test_a_bad_profile_exits_2(tmp_path: Path) -> None:
 
 @pytest.mark.parametrize("args", [["--source", "both"], ["--run", "x"]])
 def test_bad_options_are_usage_errors(args: list[str]) -> None:
-    p = subprocess.run(_report_cmd() + args, capture_output=True, text=True, timeout=60)
+    p = subprocess.run(REPORT + args, capture_output=True, text=True, timeout=60)
     assert p.returncode == 2

@@ -1,19 +1,17 @@
-"""`soaklog dash`: the parser and the command (the lead wires ``add_parser`` into daq/cli.py)."""
+"""``soaklog dash``: the live dashboard of a station's file (Textual loads only when it runs)."""
 
 from __future__ import annotations
 
 import argparse
-from typing import Any
 
 from soaklog.cliargs import DEFAULT_DB, db_path
+from soaklog.commands.common import Subparsers
 
-__all__ = ["DEFAULT_DB", "add_parser"]
-
-#: the file the demo writes when no --db is given (as the other station commands assume)
+__all__ = ["add_parser", "run"]
 
 
-def add_parser(sub: Any) -> argparse.ArgumentParser:
-    """Add ``dash`` to an argparse subparsers action; the command returns an exit status."""
+def add_parser(sub: Subparsers) -> argparse.ArgumentParser:
+    """Add ``dash``."""
     p: argparse.ArgumentParser = sub.add_parser(
         "dash", help="the live dashboard of a station's file (keyboard first; ? lists the keys)",
         description=(
@@ -27,13 +25,12 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     p.add_argument("config", nargs="?", metavar="CONFIG", help="station file (its database is used)")
     p.add_argument("--db", metavar="PATH", help=f"database file (default: {DEFAULT_DB}, as the demo writes it)")
     p.add_argument("--run", type=int, metavar="ID", help="run id (default: the newest, following new runs)")
-    p.set_defaults(func=_cmd_dash)
+    p.set_defaults(func=run)
     return p
 
 
-
-
-def _cmd_dash(args: argparse.Namespace) -> int:
+def run(args: argparse.Namespace) -> int:
+    """Run ``soaklog dash``."""
     from soaklog.dashboard.app import run_dashboard
 
     return run_dashboard(db_path(args), run_id=args.run)

@@ -1,4 +1,4 @@
-"""`soaklog report`: the command-line parser and its command (the lead wires ``add_parser`` into daq/cli.py)."""
+"""``soaklog report``: the run report (matplotlib loads only when it runs)."""
 
 from __future__ import annotations
 
@@ -8,15 +8,16 @@ from collections.abc import Callable
 from typing import IO
 
 from soaklog.cliargs import DEFAULT_DB, db_path
+from soaklog.commands.common import Subparsers
 
-__all__ = ["DEFAULT_DB", "DEFAULT_OUT", "add_parser", "cmd_report", "terminal_progress"]
+__all__ = ["DEFAULT_OUT", "add_parser", "run", "terminal_progress"]
 
 #: the same default as the other viewers: where `soaklog demo` writes
 DEFAULT_OUT = "soaklog-report"
 
 
-def add_parser(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:  # type: ignore[type-arg]
-    """Add ``report`` to the ``soaklog`` subcommands."""
+def add_parser(sub: Subparsers) -> argparse.ArgumentParser:
+    """Add ``report``."""
     p = sub.add_parser(
         "report",
         help="the run report: profile conformance, chamber performance, alarms, plots",
@@ -44,10 +45,8 @@ def add_parser(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:  # t
     p.add_argument("--out", metavar="DIR", default=DEFAULT_OUT, help=f"directory to write to (default {DEFAULT_OUT})")
     p.add_argument("--source", choices=("auto", "raw", "rollup"), default="auto",
                    help="analyse raw readings or the minute rollups (default: raw for runs up to 2 million readings)")
-    p.set_defaults(func=cmd_report)
+    p.set_defaults(func=run)
     return p
-
-
 
 
 def terminal_progress(stream: IO[str] = sys.stderr) -> Callable[[int, int, str], None] | None:
@@ -66,7 +65,7 @@ def terminal_progress(stream: IO[str] = sys.stderr) -> Callable[[int, int, str],
     return show
 
 
-def cmd_report(args: argparse.Namespace) -> int:
+def run(args: argparse.Namespace) -> int:
     """Run ``soaklog report``; prints what was written and the verdict."""
     from soaklog.report.build import make_report
 
