@@ -375,6 +375,9 @@ def bench_instruments(*, quick: bool = False) -> dict[str, Any]:
 def run_bench(*, quick: bool = False) -> dict[str, Any]:
     """Run every benchmark that exists so far; contract keys not yet measurable are None."""
     result: dict[str, Any] = {key: None for key in CONTRACT_KEYS}
+    from soaklog.clibench import bench_cli
+
+    result.update(bench_cli(quick=quick))  # first: fresh processes, before the other figures load the machine
     result.update(bench_convert(n=10_000_000, repeats=2 if quick else 5))
     result.update(bench_ingest(n_scans=2_000 if quick else 12_500))
     result.update(bench_trend(hours=50.0 if quick else 1000.0))

@@ -40,7 +40,20 @@ def run(args: argparse.Namespace) -> int:
         v = r.get(key)
         return "—" if v is None else format(v, spec)
 
+    def start(key: str) -> tuple[str, str]:
+        s, mb = r.get(f"cli_{key}_s"), r.get(f"cli_{key}_max_rss_mb")
+        value = "—" if s is None or mb is None else f"{s:.2f} s, {mb:.0f} MB"
+        ratio = f"{f(f'cli_{key}_ratio_vs_python', '.1f')} × / {f(f'cli_{key}_rss_ratio_vs_python', '.1f')} ×"
+        return value, ratio
+
     rows = [
+        ("start-up: soaklog --version", start("version")[0],
+         f"{start('version')[1]} a bare python -c pass ({f('cli_python_s', '.2f')} s, "
+         f"{f('cli_python_max_rss_mb', '.0f')} MB)", "< 0.35 s, < 40 MB"),
+        ("start-up: soaklog convert 100", start("convert")[0], f"{start('convert')[1]} the same", "< 0.35 s, < 40 MB"),
+        ("soaklog run: launch → first stored reading", start("run_first_reading")[0],
+         f"{start('run_first_reading')[1]} the same; of it imports {f('cli_run_imports_s', '.2f')} s, "
+         f"commits every {f('cli_run_commit_interval_s', 'g')} s", ""),
         ("conversion, 10 M values over -200…850 °C", f"{f('convert_values_per_s', ',.0f')} /s",
          f"{f('convert_ratio_vs_numpy', '.2f')} × bare numpy quadratic (exact ≥ 0 °C only)", "≥ 0.5 ×"),
         ("ingest: parse → pipeline → store", f"{f('ingest_readings_per_s', ',.0f')} readings/s",
