@@ -20,13 +20,11 @@ from __future__ import annotations
 
 import json
 import os
-import sqlite3
 import statistics
 import subprocess
 import sys
 import tempfile
 import time
-from contextlib import closing
 from pathlib import Path
 from typing import Any
 
@@ -113,13 +111,16 @@ def bench_startup(rounds: int = 7) -> dict[str, Any]:
 
 
 def _has_reading(db: Path) -> bool:
-    """Whether the file has a stored reading, read as any SQLite tool reads it (the public view)."""
+    """Whether the file has a stored reading (read as any viewer reads it: read-only, through the store)."""
+    from soaklog.errors import StorageError
+    from soaklog.store import Store
+
     if not db.exists():
         return False
     try:
-        with closing(sqlite3.connect(f"file:{db}?mode=ro", uri=True, timeout=0.5)) as conn:
-            return conn.execute("SELECT 1 FROM readings_v LIMIT 1").fetchone() is not None
-    except sqlite3.Error:  # not created yet, or its schema not yet written
+        with Store.open(db, readonly=True, timeout_s=0.5) as store:
+            return store.time_span(int(store.run()["id"]))[0] is not None
+    except StorageError:  # its schema or its run not written yet
         return False
 
 
@@ -168,7 +169,7 @@ def bench_run_first_reading(repeats: int = 3, timeout_s: float = 60.0) -> dict[s
                             raise RuntimeError(f"soaklog run exited with status {p.returncode} before a reading")
                         if time.perf_counter() - t0 > timeout_s:
                             raise RuntimeError(f"soaklog run stored no reading within {timeout_s:g} s")
-                        time.sleep(0.005)
+                        time.sleep(0.01)
                     wall_s = time.perf_counter() - t0
                     peak_mb = _peak_mb(p.pid)
                 finally:
