@@ -22,6 +22,7 @@ from soaklog.errors import ConfigError, InputError
 from soaklog.kinds import INSTRUMENTS
 from soaklog.kinds.instruments import COMMON_KEYS, InstrumentKind
 from soaklog.kinds.keys import Checker, non_negative, one_of, parse_duration, plain_date, positive
+from soaklog.profile import Profile, read_profile
 from soaklog.sensors.cvd import IEC_60751, CvdCurve
 from soaklog.sensors.leads import Conductor, Leads
 from soaklog.sensors.measurement import Calibration, MeasurementChain, chain_of
@@ -164,7 +165,7 @@ class StationConfig:
     sensors: tuple[SensorConfig, ...]
     channels: tuple[ChannelConfig, ...]
     alarms: tuple[AlarmConfig, ...]
-    profile: Mapping[str, Any]
+    profile: Profile | None
     warnings: tuple[str, ...] = ()
 
     def instrument(self, name: str) -> InstrumentConfig:
@@ -286,7 +287,7 @@ def parse_config(text: str, path: str = "<config>", *, today: _dt.date | None = 
     channels = _channels(ck, data.get("channel", []), inst_by_name, sens_by_name,
                          _declared(data.get("instrument")), _declared(data.get("sensor")))
     alarms = _alarms(ck, data.get("alarm", []), {c.name for c in channels}, instruments, channels)
-    profile = ck.table(data.get("profile", {}), "profile")
+    profile = _profile(ck, data.get("profile"), {c.name for c in channels}, path)
 
     if not channels and not ck.problems:
         ck.bad("channel", "no channels: add at least one [[channel]]")
@@ -297,8 +298,26 @@ def parse_config(text: str, path: str = "<config>", *, today: _dt.date | None = 
         path=path, text=text, station=station, run_name=run_name, database=database,
         commit_interval_s=commit_s, ambient_c=ambient, planned_duration_s=planned,
         instruments=tuple(instruments), sensors=tuple(sensors), channels=tuple(channels),
-        alarms=tuple(alarms), profile=dict(profile), warnings=tuple(ck.warnings),
+        alarms=tuple(alarms), profile=profile, warnings=tuple(ck.warnings),
     )
+
+
+def _profile(ck: _Checker, raw: Any, channel_names: set[str], path: str) -> Profile | None:
+    """The ``[profile]``, read by its kind (soaklog.kinds.profiles); its problems by key, with the rest."""
+    if raw is None:
+        return None
+    if not isinstance(raw, dict):
+        ck.bad("profile", f"must be a table, got {type(raw).__name__}")
+        return None
+    profile, problems = read_profile(raw, where=path)
+    for key, msg in problems:
+        ck.bad(f"profile.{key}" if key else "profile", msg)
+    if profile is not None:
+        for key, chosen in (("sample_channels", profile.sample_channels), ("chamber_channels", profile.chamber_channels)):
+            for c in chosen or ():
+                if c not in channel_names:
+                    ck.bad(f"profile.{key}", f"no channel named {c!r}")
+    return profile
 
 
 def _array(ck: _Checker, value: Any, key: str) -> list[Any]:

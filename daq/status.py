@@ -80,11 +80,8 @@ def format_status(rep: dict[str, Any]) -> str:
 
 def _representative_temperatures(cfg: StationConfig) -> list[float]:
     temps: set[float] = {0.0, 100.0}
-    prof = cfg.profile
-    for key in ("low_c", "high_c", "temperature_c"):
-        v = prof.get(key)
-        if isinstance(v, (int, float)) and not isinstance(v, bool):
-            temps.add(float(v))
+    if cfg.profile is not None:
+        temps.update(cfg.profile.setpoints_c)
     return sorted(temps)
 
 

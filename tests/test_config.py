@@ -966,3 +966,39 @@ def test_a_board_input_is_a_number_the_protocol_can_carry():
     with pytest.raises(ConfigProblems) as exc:
         parse_config(text, "/lab/s.toml")
     assert exc.value.problems == [("channel[1].input", "a board input is a number 0…63, got 'A1'")]
+
+
+# ---------------------------------------------------------------- the profile: one parser, checked by `check`
+
+
+@pytest.mark.parametrize(
+    ("profile", "key", "words"),
+    [
+        ('kind = "cycle"\nlow_c = -40.0\nhigh_c = 125.0\ndwel = "15min"\ncycles = 3\ntolerance_k = 3.0',
+         "profile.dwel", "did you mean 'dwell'?"),
+        ('kind = "cycle"\nlow_c = -40.0\nhigh_c = 125.0\ndwell = "-15min"\ncycles = 3\ntolerance_k = 3.0',
+         "profile.dwell", "not a duration"),
+        ('kind = "ramp"\nlow_c = -40.0', "profile.kind", "must be one of cycle, soak"),
+        ('kind = "soak"\ntemperature_c = 125.0\nduration = "1000h"', "profile.tolerance_k", "is required"),
+        ('kind = "soak"\ntemperature_c = 125.0\nduration = "1h"\ntolerance_k = 2.0\nsample_channels = ["nowhere"]',
+         "profile.sample_channels", "no channel named 'nowhere'"),
+    ],
+)
+def test_a_bad_profile_is_refused_by_file_and_key(profile: str, key: str, words: str) -> None:
+    with pytest.raises(ConfigProblems) as info:
+        parse_config(VALID + "\n[profile]\n" + profile + "\n", "/lab/station.toml", today=TODAY)
+    assert any(k == key and words in m for k, m in info.value.problems), info.value.problems
+    assert f"/lab/station.toml: {key}: " in str(info.value)
+
+
+def test_the_demo_profile_is_parsed_once_for_check_the_dashboard_and_the_report() -> None:
+    from soaklog.dashboard.plan import run_plan
+    from soaklog.demo import demo_config_text
+
+    cfg = parse_config(demo_config_text(), "demo.toml", today=TODAY)
+    assert cfg.profile is not None and cfg.profile.kind == "cycle"
+    # configs/demo.toml: low_c = -40.0, high_c = 125.0, cycles = 1000, dwell = "15min", tolerance_k = 3.0
+    assert (cfg.profile.low.nominal_c, cfg.profile.high.nominal_c, cfg.profile.cycles) == (-40.0, 125.0, 1000)
+    assert cfg.profile.dwell_high_s == cfg.profile.dwell_low_s == 900.0
+    plan = run_plan(demo_config_text())
+    assert plan.profile is not None and (plan.profile.low_c, plan.profile.high_c) == (-40.0, 125.0)

@@ -3,7 +3,9 @@
 from __future__ import annotations
 
 from soaklog.report.build import ReportResult, load_profile_file, make_report
-from soaklog.report.profile import Band, CycleProfile, Profile, SoakProfile, parse_profile
+from soaklog.profile import Band, Profile, parse_profile
+from soaklog.kinds.profiles.cycle import CycleProfile
+from soaklog.kinds.profiles.soak import SoakProfile
 
 __all__ = [
     "Band",

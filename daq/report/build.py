@@ -23,7 +23,8 @@ from soaklog.report.alarmlog import alarm_episodes, alarm_rates
 from soaklog.report.conformance import Conformance, analyse
 from soaklog.report.data import RunData, load_run
 from soaklog.report.performance import Performance
-from soaklog.report.profile import CycleProfile, Profile, parse_profile, profile_channels
+from soaklog.profile import Profile, parse_profile, profile_channels
+from soaklog.kinds.profiles.cycle import CycleProfile
 from soaklog.report.render import render_html
 from soaklog.report.tables import (
     MAX_REFINED,

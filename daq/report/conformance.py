@@ -45,7 +45,9 @@ from dataclasses import dataclass, field
 import numpy as np
 import numpy.typing as npt
 
-from soaklog.report.profile import Band, CycleProfile, Profile, SoakProfile
+from soaklog.profile import Band, Profile
+from soaklog.kinds.profiles.cycle import CycleProfile
+from soaklog.kinds.profiles.soak import SoakProfile
 from soaklog.report.series import (
     FloatArray,
     Series,

@@ -15,7 +15,9 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from soaklog.report.conformance import Conformance
-from soaklog.report.profile import Band, CycleProfile, SoakProfile
+from soaklog.profile import Band
+from soaklog.kinds.profiles.cycle import CycleProfile
+from soaklog.kinds.profiles.soak import SoakProfile
 from soaklog.report.series import FloatArray, Series, nan_mean_rows
 
 __all__ = ["MAX_PLOT_POINTS", "by_cycle_png", "closeups_png", "cycle_overlay_png", "overview_png", "spread_png"]

@@ -24,7 +24,9 @@ from soaklog.report.performance import (
     stable_mask,
     stable_period,
 )
-from soaklog.report.profile import CycleProfile, Profile, SoakProfile
+from soaklog.profile import Profile
+from soaklog.kinds.profiles.cycle import CycleProfile
+from soaklog.kinds.profiles.soak import SoakProfile
 from soaklog.store import Store, iso_utc
 
 __all__ = [

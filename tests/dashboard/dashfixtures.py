@@ -38,16 +38,53 @@ high_c = 125.0
 ramp_k_per_min = 10.0
 dwell = "15min"
 cycles = 10
+tolerance_k = 3.0
 
 [[instrument]]
 name = "meter"
 driver = "scpi"
+resource = "TCPIP0::127.0.0.1::5025::SOCKET"
 interval = "10s"
 
 [[instrument]]
 name = "board"
 driver = "serial-adc"
+port = "/dev/ttyUSB0"
 interval = "5s"
+
+[[sensor]]
+name = "pt100"
+class = "A"
+
+[[channel]]
+name = "air"
+label = "Air supply"
+instrument = "meter"
+input = "101"
+sensor = "pt100"
+
+[[channel]]
+name = "shelf"
+label = "Shelf 1 front"
+instrument = "meter"
+input = "102"
+sensor = "pt100"
+
+[[channel]]
+name = "door"
+label = "Door corner"
+instrument = "board"
+input = "0"
+sensor = "pt100"
+wiring = 4
+
+[[channel]]
+name = "plate"
+label = "Fixture plate"
+instrument = "board"
+input = "1"
+sensor = "pt100"
+wiring = 4
 
 [[alarm]]
 name = "air-high"

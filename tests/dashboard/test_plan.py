@@ -12,7 +12,7 @@ from soaklog.demo import demo_config_text
 from soaklog.simulators.profiles import Cycle
 
 DEMO_PROFILE = {"kind": "cycle", "low_c": -40.0, "high_c": 125.0, "ramp_k_per_min": 10.0, "dwell": "15min",
-                "cycles": 1000}
+                "cycles": 1000, "tolerance_k": 3.0}
 
 # Arithmetic from the profile's definition (ramp-and-dwell, as IEC 60068-2-14 test Nb describes a
 # change of temperature at a specified rate): from 23 °C, 102 K at 10 K/min take 612 s; a dwell is
@@ -59,7 +59,8 @@ def test_planned_setpoint_agrees_with_the_simulated_chamber_programme(low, span,
     """The dashboard's plan and the chamber simulator's programme are written apart; they must agree."""
     high = low + span
     prof = planned_profile({"kind": "cycle", "low_c": low, "high_c": high, "ramp_k_per_min": rate,
-                            "dwell": f"{dwell_s}s", "cycles": cycles, "start_c": start})
+                            "dwell": f"{dwell_s}s", "cycles": cycles, "tolerance_k": 1.0},
+                           ambient_c=start)
     assert prof is not None
     sim = Cycle(low, high, rate, dwell_s, dwell_s, cycles, start_c=start)
     t = np.asarray(frac, dtype=np.float64) * sim.duration_s
@@ -74,7 +75,7 @@ def test_planned_setpoint_agrees_with_the_simulated_chamber_programme(low, span,
 
 
 def test_a_soak_holds_its_temperature():
-    prof = planned_profile({"kind": "soak", "temperature_c": 85.0, "duration": "1000h"})
+    prof = planned_profile({"kind": "soak", "temperature_c": 85.0, "duration": "1000h", "tolerance_k": 2.0})
     assert prof is not None
     assert prof.duration_s == 1000 * 3600.0
     assert float(prof.setpoint_c(3600.0)) == 85.0

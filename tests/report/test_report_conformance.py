@@ -19,7 +19,7 @@ import pytest
 from reporttools import grid, piecewise
 
 from soaklog.report.conformance import analyse, side_states, window_rates
-from soaklog.report.profile import parse_profile
+from soaklog.profile import parse_profile
 
 MID = np.arange(140) + 0.5  # minutes: the middle of each one-minute bucket
 CORNERS = [(0, 0), (20, 0), (30, 100), (50, 100), (60, 0), (80, 0), (90, 100), (110, 100), (120, 0), (140, 0)]

@@ -11,12 +11,9 @@ from hypothesis import strategies as st
 from soaklog.demo import demo_config_text
 from soaklog.errors import InputError
 from soaklog.report.build import load_profile_file
-from soaklog.report.profile import (
-    CycleProfile,
-    SoakProfile,
-    parse_profile,
-    profile_channels,
-)
+from soaklog.profile import parse_profile, profile_channels
+from soaklog.kinds.profiles.cycle import CycleProfile
+from soaklog.kinds.profiles.soak import SoakProfile
 
 
 def test_the_demo_profile() -> None:
