@@ -37,7 +37,10 @@ def test_the_demo_runaway_trips_interlocks_and_recovers(tmp_path):
     assert "soaklog ack --all --db" in text
     with Store.open(summary["database"], readonly=True) as store:
         trips = [a for a in store.alarms(summary["run_id"]) if a["rule"] == demo.TRIP_RULE]
-    assert trips and all(a["state"] == "latched" for a in trips)  # waiting for a person
+    # waiting for a person: latched once its channel is back, or still unacknowledged where the other channel's
+    # air had not yet fallen below the trip's deadband when the demo stopped (the machine's load decides which)
+    assert trips and all(a["state"] in ("latched", "unacknowledged") for a in trips)
+    assert any(a["state"] == "latched" for a in trips)
 
 
 def test_the_demo_without_a_runaway_raises_no_alarm(tmp_path):
