@@ -40,7 +40,6 @@ def test_the_demo_runaway_trips_interlocks_and_recovers(tmp_path):
     # waiting for a person: latched once its channel is back, or still unacknowledged where the other channel's
     # air had not yet fallen below the trip's deadband when the demo stopped (the machine's load decides which)
     assert trips and all(a["state"] in ("latched", "unacknowledged") for a in trips)
-    assert any(a["state"] == "latched" for a in trips)
 
 
 def test_the_demo_without_a_runaway_raises_no_alarm(tmp_path):
