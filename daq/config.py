@@ -8,7 +8,6 @@ units (``"2s"``, ``"15min"``, ``"1000h"``).
 from __future__ import annotations
 
 import datetime as _dt
-import math
 import re
 import tomllib
 from collections.abc import Mapping, Sequence
@@ -19,14 +18,16 @@ from typing import Any
 
 from soaklog.drivers.base import STATUSES
 from soaklog.errors import ConfigError, InputError
-from soaklog.kinds import INSTRUMENTS
+from soaklog.kinds import INSTRUMENTS, SENSORS
 from soaklog.kinds.instruments import COMMON_KEYS, InstrumentKind
+from soaklog.kinds.sensors import COMMON_KEYS as SENSOR_COMMON_KEYS
+from soaklog.kinds.sensors import SensorKind
 from soaklog.kinds.keys import Checker, non_negative, one_of, parse_duration, plain_date, positive
 from soaklog.profile import Profile, read_profile
-from soaklog.sensors.cvd import IEC_60751, CvdCurve
+from soaklog.sensors.cvd import CvdCurve
 from soaklog.sensors.leads import Conductor, Leads
-from soaklog.sensors.measurement import Calibration, MeasurementChain, chain_of
-from soaklog.sensors.tolerance import ToleranceClass, tolerance_class
+from soaklog.sensors.measurement import MeasurementChain
+from soaklog.sensors.tolerance import ToleranceClass
 
 __all__ = [
     "parse_duration",
@@ -95,6 +96,12 @@ class SensorConfig:
     calibration: CalibrationRecord | None
     dissipation_w_per_k: float | None
     description: str = ""
+    type: str = "pt"
+
+    @property
+    def kind(self) -> SensorKind:
+        """The sensor kind its ``type`` names (soaklog.kinds.SENSORS)."""
+        return SENSORS[self.type]
 
 
 @dataclass(frozen=True)
@@ -179,17 +186,8 @@ class StationConfig:
         sensor = self.sensor(channel.sensor)
         inst = self.instrument(channel.instrument)
         current = channel.excitation_a if channel.excitation_a is not None else inst.current_a(channel)
-        return chain_of(
-            sensor.curve, tolerance=sensor.tolerance, calibration=_calibration(sensor.calibration),
-            dissipation_w_per_k=sensor.dissipation_w_per_k, leads=channel.leads, current_a=current,
-            meter=inst.kind.meter_spec(inst, channel), adc=inst.kind.adc_spec(inst, channel),
-        )
-
-
-def _calibration(c: CalibrationRecord | None) -> Calibration | None:
-    if c is None:
-        return None
-    return Calibration(c.expanded_uncertainty_c, c.k, c.span_c[0], c.span_c[1], c.certificate)
+        return sensor.kind.chain(sensor, channel, current_a=current, meter=inst.kind.meter_spec(inst, channel),
+                                 adc=inst.kind.adc_spec(inst, channel))
 
 
 # ---------------------------------------------------------------- validation
@@ -226,11 +224,6 @@ _plain_date = plain_date
 _TOP_KEYS = {"station", "run", "instrument", "sensor", "channel", "alarm", "profile"}
 _STATION_KEYS = {"name", "database", "commit_interval", "ambient_c"}
 _RUN_KEYS = {"name", "planned_duration"}
-_SENSOR_KEYS = {
-    "name", "type", "r0_ohm", "curve", "coefficients", "class", "element", "dissipation_mw_per_k",
-    "calibration", "description",
-}
-_CAL_KEYS = {"certificate", "date", "due", "expanded_uncertainty_c", "k", "span_c", "r0_ohm", "coefficients"}
 _CHANNEL_KEYS = {
     "name", "label", "instrument", "input", "sensor", "wiring", "lead", "imbalance_ohm", "excitation_ma",
     "position", "range_ohm",
@@ -362,96 +355,24 @@ def _instruments(ck: _Checker, raw: Any) -> list[InstrumentConfig]:
     return out
 
 
-def _coefficients(ck: _Checker, value: Any, key: str) -> tuple[float, float, float] | None:
-    if (
-        not isinstance(value, list) or len(value) != 3
-        or not all(isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) for v in value)
-    ):
-        ck.bad(key, f"must be three numbers [A, B, C], got {value!r}")
-        return None
-    return float(value[0]), float(value[1]), float(value[2])
-
-
 def _sensors(ck: _Checker, raw: Any, today: _dt.date) -> list[SensorConfig]:
-    from soaklog.sensors.curves import named_curve
-
     out: list[SensorConfig] = []
     seen: set[str] = set()
     for i, item in enumerate(_array(ck, raw, "sensor")):
         key = f"sensor[{i + 1}]"
         d = ck.table(item, key)
-        ck.unknown(d, key, _SENSOR_KEYS)
         name = ck.get(d, key, "name", str, required=True)
         _unique_name(ck, seen, name, key)
-        stype = ck.get(d, key, "type", str, default="pt",
-                       check=lambda v: None if v == "pt" else f"only platinum RTDs ('pt') are logged so far, got {v!r}")
-        r0 = ck.get(d, key, "r0_ohm", float, default=100.0, check=_positive)
-        curve: CvdCurve | None = IEC_60751
-        if "curve" in d and "coefficients" in d:
-            ck.bad(f"{key}.coefficients", "give curve or coefficients, not both")
-        elif "curve" in d:
-            cname = ck.get(d, key, "curve", str)
-            try:
-                curve = named_curve(cname) if cname else None
-            except InputError as exc:
-                ck.bad(f"{key}.curve", str(exc))
-                curve = None
-        elif "coefficients" in d:
-            co = _coefficients(ck, d["coefficients"], f"{key}.coefficients")
-            curve = None
-            if co is not None:
-                try:
-                    curve = CvdCurve(a=co[0], b=co[1], c=co[2], name=f"sensor {name} coefficients")
-                except ValueError as exc:
-                    ck.bad(f"{key}.coefficients", str(exc))
-        tol = None
-        if "class" in d:
-            cls = ck.get(d, key, "class", str)
-            element = ck.get(d, key, "element", str)
-            if element is not None and element.strip().lower() not in ("film", "wire"):
-                ck.bad(f"{key}.element", f"must be 'film' or 'wire', got {element!r}")
-            elif cls:
-                try:
-                    tol = tolerance_class(cls, element)
-                except InputError as exc:
-                    ck.bad(f"{key}.class", str(exc))
-        elif "element" in d:
-            ck.bad(f"{key}.element", "only qualifies a class; give class too")
-        diss = ck.get(d, key, "dissipation_mw_per_k", float, check=_positive)
-        cal = None
-        if "calibration" in d:
-            ckey = f"{key}.calibration"
-            c = ck.table(d["calibration"], ckey)
-            ck.unknown(c, ckey, _CAL_KEYS)
-            cert = ck.get(c, ckey, "certificate", str, required=True) or ""
-            u = ck.get(c, ckey, "expanded_uncertainty_c", float, required=True, check=_non_negative)
-            k = ck.get(c, ckey, "k", float, default=2.0, check=_positive)
-            span = c.get("span_c", [-200.0, 850.0])
-            if (not isinstance(span, list) or len(span) != 2
-                    or not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in span)
-                    or not span[0] < span[1]):
-                ck.bad(f"{ckey}.span_c", f"must be [low, high] in °C with low < high, got {span!r}")
-                span = [-200.0, 850.0]
-            date = ck.get(c, ckey, "date", _dt.date, check=_plain_date)
-            due = ck.get(c, ckey, "due", _dt.date, check=_plain_date)
-            if due is not None and due < today:
-                ck.warnings.append(f"{ckey}.due: calibration of {name} was due {due.isoformat()}; its uncertainty may no longer hold")
-            if "coefficients" in c:
-                co = _coefficients(ck, c["coefficients"], f"{ckey}.coefficients")
-                if co is not None:
-                    try:
-                        curve = CvdCurve(a=co[0], b=co[1], c=co[2], name=f"calibration {cert}")
-                    except ValueError as exc:
-                        ck.bad(f"{ckey}.coefficients", str(exc))
-                        curve = None
-            if "r0_ohm" in c:
-                r0 = ck.get(c, ckey, "r0_ohm", float, check=_positive) or r0
-            if u is not None and k is not None:
-                cal = CalibrationRecord(cert, u, k, (float(span[0]), float(span[1])), date, due)
-        if name is None or stype is None or curve is None or r0 is None:
+        stype = ck.get(d, key, "type", str, default="pt", check=one_of(SENSORS.names))
+        kind = SENSORS.get(stype) if stype is not None else None
+        if kind is None:
+            ck.unknown(d, key, set(SENSOR_COMMON_KEYS).union(*(k.keys for _, k in SENSORS.items())))
             continue
-        out.append(SensorConfig(name, curve.with_r0(r0), tol, cal,
-                                None if diss is None else diss / 1000.0, ck.get(d, key, "description", str, default="") or ""))
+        ck.unknown(d, key, set(SENSOR_COMMON_KEYS) | set(kind.keys))
+        description = ck.get(d, key, "description", str, default="") or ""
+        sensor = kind.read(ck, d, key, name, description, today)
+        if sensor is not None:
+            out.append(sensor)
     return out
 
 
@@ -825,32 +746,13 @@ def _action_timeout(ck: _Checker, d: Mapping[str, Any], key: str, default: str) 
 def _metrology_warnings(
     ck: _Checker, instruments: list[InstrumentConfig], sensors: list[SensorConfig], channels: list[ChannelConfig]
 ) -> None:
-    """What a metrologist would point out before a run (these never stop it)."""
+    """What a metrologist would point out before a run (these never stop it): each kind says its own."""
     inst = {i.name: i for i in instruments}
     sens = {s.name: s for s in sensors}
     for c in channels:
         s, i = sens.get(c.sensor), inst.get(c.instrument)
         if s is None or i is None:
             continue
-        if c.leads.wiring == 2 and s.tolerance is not None and s.tolerance.a_c <= 0.15:
-            ck.warnings.append(
-                f"channel {c.name}: 2-wire with a class {s.tolerance.name} sensor: the lead residual will swamp "
-                "the sensor's tolerance; use 3- or 4-wire"
-            )
         current = c.excitation_a if c.excitation_a is not None else i.current_a(c)
-        if current is not None and s.dissipation_w_per_k is None and s.curve.r0_ohm >= 500 and current >= 0.5e-3:
-            ck.warnings.append(
-                f"channel {c.name}: a Pt{s.curve.r0_ohm:g} at {current * 1e3:g} mA self-heats visibly and no "
-                "dissipation constant is given to correct it; give dissipation_mw_per_k or use a range with a lower test current"
-            )
-        elif current is not None and s.dissipation_w_per_k is not None:
-            rise = current * current * float(s.curve.r0_ohm) / s.dissipation_w_per_k
-            if rise > 0.1:
-                ck.warnings.append(
-                    f"channel {c.name}: self-heating about {rise:.2f} K at 0 °C with {current * 1e3:g} mA; "
-                    "it is corrected, but its uncertainty grows with it"
-                )
         i.kind.warnings(i, c, s, ck)
-        if s.tolerance is None and s.calibration is None:
-            ck.warnings.append(f"sensor {s.name}: no class or calibration: its uncertainty leaves the sensor out")
-
+        s.kind.warnings(s, c, current, ck)
