@@ -14,11 +14,14 @@ from __future__ import annotations
 
 import threading
 import time
-from typing import Protocol
+from typing import TYPE_CHECKING, Protocol
 
 from soaklog.drivers.base import Clock, SystemClock
 
-__all__ = ["ServiceClock", "SystemClock", "AcceleratedClock", "SimTime"]
+if TYPE_CHECKING:
+    from soaklog.simulators.clock import SimTime
+
+__all__ = ["ServiceClock", "SystemClock", "AcceleratedClock"]
 
 
 class ServiceClock(Clock, Protocol):
@@ -27,10 +30,6 @@ class ServiceClock(Clock, Protocol):
     def wait_until(self, t_s: float, stop: threading.Event) -> bool:
         """Wait until ``monotonic_s()`` reaches ``t_s``; False if ``stop`` was set first."""
         ...
-
-
-class SimTime(Protocol):
-    def now_s(self) -> float: ...
 
 
 class AcceleratedClock:

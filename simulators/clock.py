@@ -16,7 +16,7 @@ from typing import Protocol
 
 from soaklog.errors import InputError
 
-__all__ = ["Clock", "SimClock", "ManualClock"]
+__all__ = ["SimTime", "SimClock", "ManualClock"]
 
 
 def _check_speed(speed: float) -> float:
@@ -36,7 +36,7 @@ def _check_seconds(value: float, what: str) -> float:
     return float(value)
 
 
-class Clock(Protocol):
+class SimTime(Protocol):
     """Anything that tells simulated seconds since the start of the run."""
 
     def now_s(self) -> float:

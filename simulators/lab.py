@@ -15,7 +15,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
-from soaklog.simulators.clock import Clock
+from soaklog.simulators.clock import SimTime
 from soaklog.simulators.control import CommandTable, ControlError, ControlServer
 from soaklog.simulators.world import DEMO_BOARD_CHANNELS, DEMO_METER_CHANNELS, ChamberWorld, demo_world
 
@@ -53,7 +53,7 @@ class Lab:
         *,
         seed: int = 20261201,
         speed: float = 1.0,
-        clock: Clock | None = None,
+        clock: SimTime | None = None,
         meter: bool = True,
         board: bool = True,
         meter_port: int = 0,

@@ -35,7 +35,7 @@ import numpy as np
 from soaklog.errors import InputError
 from soaklog.sensors.leads import Conductor
 from soaklog.simulators.chamber import ChamberModel, ChamberParams, Position
-from soaklog.simulators.clock import Clock, SimClock
+from soaklog.simulators.clock import SimClock, SimTime
 from soaklog.simulators.control import CommandTable, ControlError
 from soaklog.simulators.plant import Terminal
 from soaklog.simulators.profiles import Cycle
@@ -82,7 +82,7 @@ class ChamberWorld:
         self,
         model: ChamberModel,
         sensors: Sequence[SimSensor],
-        clock: Clock | None = None,
+        clock: SimTime | None = None,
         *,
         truth_log: str | Path | IO[str] | None = None,
         truth_log_interval_s: float | None = None,
@@ -103,7 +103,7 @@ class ChamberWorld:
             raise InputError(f"truth_log_interval_s must be > 0 s or None, got {truth_log_interval_s!r}")
         self._model = model
         self._sensors = {s.name: s for s in sensors}
-        self._clock: Clock = clock if clock is not None else SimClock()
+        self._clock: SimTime = clock if clock is not None else SimClock()
         self._lock = threading.RLock()
         self._faults: dict[str, FaultState] = {}
         self._last_mode: dict[str, tuple[int, float]] = {}
@@ -138,7 +138,7 @@ class ChamberWorld:
                 self._log = None
 
     @property
-    def clock(self) -> Clock:
+    def clock(self) -> SimTime:
         return self._clock
 
     @property
@@ -540,7 +540,7 @@ def demo_world(
     seed: int = 20261201,
     speed: float = 1.0,
     *,
-    clock: Clock | None = None,
+    clock: SimTime | None = None,
     cycles: int = 1000,
     truth_log: str | Path | IO[str] | None = None,
     truth_log_interval_s: float | None = None,

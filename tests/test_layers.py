@@ -34,6 +34,7 @@ SIMULATOR_PLACES = (
     ("demo", "`soaklog demo` runs the simulated lab"),
     ("simulat", "`soaklog simulate` runs one simulator standalone"),
     ("bench", "the benchmarks measure against the simulators, imported inside the functions that run them"),
+    ("soaklog.clock", "a type only (under TYPE_CHECKING): AcceleratedClock runs on a simulation's time source"),
 )
 
 @dataclass(frozen=True)
