@@ -32,9 +32,12 @@ from __future__ import annotations
 
 import math
 from collections import deque
-from collections.abc import Callable, Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field, replace
-from typing import TYPE_CHECKING, Literal
+from typing import TYPE_CHECKING, Any, Literal
+
+from soaklog.kinds import ALARM_RULES
+from soaklog.kinds.alarms import FAULT_STATUSES, AlarmRuleKind, KindDefaults, Moment, Signals
 
 if TYPE_CHECKING:
     from soaklog.config import AlarmConfig, StationConfig
@@ -42,11 +45,9 @@ if TYPE_CHECKING:
 __all__ = [
     "STATES",
     "ACTIVE_STATES",
-    "KINDS",
     "KIND_DEFAULTS",
     "FAULT_STATUSES",
     "MAX_SHELVE_S",
-    "BUILTIN_INSTRUMENT_LOST",
     "KindDefaults",
     "Sample",
     "Rule",
@@ -71,74 +72,33 @@ STATES: tuple[str, ...] = (
 #: states in which the alarm asks for the operator (condition active, or not yet seen, or held)
 ACTIVE_STATES = frozenset({"unacknowledged", "acknowledged", "returned_unacknowledged", "latched"})
 
-KINDS: tuple[str, ...] = (
-    "high", "high_high", "low", "low_low", "rate", "deviation", "spread", "sensor_fault", "stale", "instrument_lost",
-)
-
-#: reading statuses that mean the sensor itself is bad (not the link to it)
-FAULT_STATUSES = frozenset({"open", "short", "out_of_range", "overload", "invalid"})
-
 #: the longest an operator may shelve an alarm: one day (ISA-18.2 asks for a
 #: time limit on shelving; the figure is common practice, no published source)
 MAX_SHELVE_S = 24 * 3600.0
 
 
-@dataclass(frozen=True)
-class KindDefaults:
-    """What a rule of one kind does when the station file leaves a setting out.
+class _KindDefaultsView(Mapping[str, KindDefaults]):
+    """Each registered alarm rule kind's defaults, by kind (a live view of soaklog.kinds.ALARM_RULES)."""
 
-    Attributes:
-        limit_key: the station file key of the limit (None: the kind has no limit).
-        unit: the limit's unit as shown in messages.
-        deadband: in the limit's unit; for ``rate`` a fraction of the limit.
-        on_delay_s, off_delay_s: the delays.
-        latch: whether the alarm stays latched until reset.
-        shelvable: whether an operator may shelve it.
-        severity: low, medium, high or critical.
-    """
+    def __getitem__(self, kind: str) -> KindDefaults:
+        k = ALARM_RULES.get(kind)
+        if k is None:
+            raise KeyError(kind)
+        return k.defaults
 
-    limit_key: str | None
-    unit: str
-    deadband: float
-    on_delay_s: float
-    off_delay_s: float
-    latch: bool
-    shelvable: bool
-    severity: str
+    def __iter__(self) -> Iterator[str]:
+        return iter(ALARM_RULES.names())
+
+    def __len__(self) -> int:
+        return len(ALARM_RULES.names())
 
 
-# Defaults for temperature. ISA-18.2 (and its technical report on alarm
-# philosophy, with EEMUA 191 in the same spirit) recommends, for temperature
-# signals, a deadband of about 1 % of the operating span and on/off delays of
-# about 60 s (from memory of those documents: flow 5 %/15 s, level 5 %/60 s,
-# pressure 2 %/15 s, temperature 1 %/60 s). 1 K is 1 % of a 100 K span.
-# The high-high and low-low alarms are the last software line before the
-# chamber's own cut-out and usually carry an interlock: no on-delay, latched
-# until a person resets them, never shelvable ("highly managed" alarms in
-# ISA-18.2 terms; the choice is ours, common practice, no published source).
-KIND_DEFAULTS: dict[str, KindDefaults] = {
-    "high": KindDefaults("limit_c", "°C", 1.0, 60.0, 60.0, False, True, "high"),
-    "low": KindDefaults("limit_c", "°C", 1.0, 60.0, 60.0, False, True, "high"),
-    "high_high": KindDefaults("limit_c", "°C", 1.0, 0.0, 60.0, True, False, "critical"),
-    "low_low": KindDefaults("limit_c", "°C", 1.0, 0.0, 60.0, True, False, "critical"),
-    # rate: deadband 10 % of the limit (common practice, no published source)
-    "rate": KindDefaults("limit_k_per_min", "K/min", 0.1, 60.0, 60.0, False, True, "high"),
-    "deviation": KindDefaults("limit_k", "K", 1.0, 60.0, 60.0, False, True, "high"),
-    "spread": KindDefaults("limit_k", "K", 1.0, 60.0, 60.0, False, True, "medium"),
-    # a bad sensor is reported at once and cleared after a minute of good readings
-    "sensor_fault": KindDefaults(None, "", 0.0, 0.0, 60.0, False, True, "high"),
-    # stale_after is itself the delay
-    "stale": KindDefaults(None, "", 0.0, 0.0, 0.0, False, True, "high"),
-    "instrument_lost": KindDefaults(None, "", 0.0, 0.0, 0.0, False, True, "high"),
-}
-#: rate of change: the window the slope is fitted over (common practice, no published source)
-DEFAULT_RATE_WINDOW_S = 120.0
-#: deviation from a reference channel, spread: readings older than this are left out
-DEFAULT_MAX_AGE_S = 60.0
-#: stale: no good reading for this long (at least three scans: see daq.config)
-DEFAULT_STALE_AFTER_S = 60.0
-#: the rule a station gets when its file has no instrument_lost rule
-BUILTIN_INSTRUMENT_LOST = "instrument-lost"
+#: what a rule of each kind does when the station file leaves a setting out (each kind's module declares its own)
+KIND_DEFAULTS: Mapping[str, KindDefaults] = _KindDefaultsView()
+
+_RULE_FIELDS = frozenset({
+    "severity", "limit", "deadband", "on_delay_s", "off_delay_s", "latch", "shelvable", "in_service", "instruments",
+})
 
 
 # ---------------------------------------------------------------- records
@@ -158,10 +118,11 @@ class Sample:
 class Rule:
     """One alarm rule with every setting resolved.
 
-    ``limit`` and ``deadband`` are in the kind's unit: °C for high and low
-    kinds, K for deviation and spread, K/min for rate. ``channels`` are
-    names ("*" expanded by the engine); ``instruments`` only for
-    ``instrument_lost``.
+    ``limit`` and ``deadband`` are in the kind's unit (°C for high and low
+    kinds, K for deviation and spread, K/min for rate). ``channels`` are
+    names ("*" expanded by the engine); ``instruments`` for the kinds that
+    watch instruments. ``settings`` are the kind's own (``window_s`` of a
+    rate rule, …), its defaults filled in.
     """
 
     name: str
@@ -175,43 +136,51 @@ class Rule:
     latch: bool = False
     shelvable: bool = True
     in_service: bool = True
-    window_s: float = DEFAULT_RATE_WINDOW_S
-    direction: Literal["rise", "fall", "both"] = "both"
-    setpoint_c: float | None = None
-    reference: str | None = None
-    max_age_s: float = DEFAULT_MAX_AGE_S
-    stale_after_s: float = DEFAULT_STALE_AFTER_S
-    statuses: frozenset[str] = FAULT_STATUSES
     instruments: tuple[str, ...] = ()
+    settings: Mapping[str, Any] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        if self.kind not in KINDS:
-            raise ValueError(f"alarm {self.name}: unknown kind {self.kind!r}; known: {', '.join(KINDS)}")
-        if KIND_DEFAULTS[self.kind].limit_key is not None and not math.isfinite(self.limit):
+        k = ALARM_RULES.get(self.kind)
+        if k is None:
+            raise ValueError(f"alarm {self.name}: unknown kind {self.kind!r}; known: {', '.join(ALARM_RULES.names())}")
+        if k.defaults.limit_key is not None and not math.isfinite(self.limit):
             raise ValueError(f"alarm {self.name}: a {self.kind} rule needs a finite limit, got {self.limit!r}")
         if self.deadband < 0 or self.on_delay_s < 0 or self.off_delay_s < 0:
             raise ValueError(f"alarm {self.name}: deadband and delays must not be negative")
+        unknown = set(self.settings) - set(k.settings)
+        if unknown:
+            raise ValueError(f"alarm {self.name}: a {self.kind} rule has no setting {sorted(unknown)[0]!r}; "
+                             f"its settings: {', '.join(k.settings) or 'none'}")
+        object.__setattr__(self, "settings", {**k.settings, **self.settings})
+
+    @property
+    def kind_of(self) -> AlarmRuleKind:
+        """The rule's kind (soaklog.kinds.ALARM_RULES)."""
+        return ALARM_RULES[self.kind]
 
     @classmethod
-    def of_kind(cls, name: str, kind: str, channels: Sequence[str] = (), **settings: object) -> Rule:
-        """A rule with the kind's defaults for every setting not given."""
-        d = KIND_DEFAULTS[kind]
-        base: dict[str, object] = {
+    def of_kind(cls, name: str, kind: str, channels: Sequence[str] = (), **settings: Any) -> Rule:
+        """A rule with the kind's defaults for every setting not given (the kind's own settings by name too)."""
+        k = ALARM_RULES[kind]
+        d = k.defaults
+        base: dict[str, Any] = {
             "severity": d.severity, "on_delay_s": d.on_delay_s, "off_delay_s": d.off_delay_s,
             "latch": d.latch, "shelvable": d.shelvable,
         }
-        base.update(settings)
+        own = {key: v for key, v in settings.items() if key not in _RULE_FIELDS}
+        base.update({key: v for key, v in settings.items() if key in _RULE_FIELDS})
         if "deadband" not in settings:
-            limit = settings.get("limit", math.nan)
-            base["deadband"] = d.deadband * abs(float(limit)) if kind == "rate" else d.deadband  # type: ignore[arg-type]
-        return cls(name, kind, tuple(channels), **base)  # type: ignore[arg-type]
+            limit = settings.get("limit")
+            base["deadband"] = k.default_deadband(None if limit is None else float(limit))
+        return cls(name, kind, tuple(channels), settings=own, **base)
 
     @classmethod
     def from_config(cls, a: AlarmConfig) -> Rule:
         """The rule an ``[[alarm]]`` of a validated station file describes (defaults already filled in)."""
         p = a.params
-        d = KIND_DEFAULTS[a.kind]
-        kw: dict[str, object] = {
+        k = ALARM_RULES[a.kind]
+        d = k.defaults
+        kw: dict[str, Any] = {
             "severity": a.severity,
             "on_delay_s": float(p.get("on_delay_s", d.on_delay_s)),
             "off_delay_s": float(p.get("off_delay_s", d.off_delay_s)),
@@ -221,44 +190,16 @@ class Rule:
         }
         if d.limit_key is not None:
             kw["limit"] = float(p[d.limit_key])
-            db_key = "deadband_k_per_min" if a.kind == "rate" else "deadband_k"
-            kw["deadband"] = float(p.get(db_key, d.deadband * abs(kw["limit"]) if a.kind == "rate" else d.deadband))  # type: ignore[arg-type]
-        for src, dst in (("window_s", "window_s"), ("max_age_s", "max_age_s"), ("stale_after_s", "stale_after_s")):
-            if src in p:
-                kw[dst] = float(p[src])
-        if "direction" in p:
-            kw["direction"] = p["direction"]
-        if "setpoint_c" in p:
-            kw["setpoint_c"] = float(p["setpoint_c"])
-        if "reference" in p:
-            kw["reference"] = str(p["reference"])
-        if "statuses" in p:
-            kw["statuses"] = frozenset(p["statuses"])
+            kw["deadband"] = float(p.get(k.deadband_key, k.default_deadband(kw["limit"])) if k.deadband_key
+                                   else k.default_deadband(kw["limit"]))
         if "instruments" in p:
             kw["instruments"] = tuple(p["instruments"])
-        return cls(a.name, a.kind, tuple(a.channels), **kw)  # type: ignore[arg-type]
-
-    @property
-    def per_channel(self) -> bool:
-        return self.kind not in ("spread", "instrument_lost")
+        own = {key: p[key] for key in k.settings if key in p}
+        return cls(a.name, a.kind, tuple(a.channels), settings=own, **kw)
 
     def test(self, value: float, active: bool) -> bool:
         """The rule's test on a value, with the deadband on the way back (``active``: the delayed condition)."""
-        lim, db = self.limit, self.deadband
-        k = self.kind
-        if k in ("high", "high_high", "deviation", "spread"):
-            return value >= lim - db if active else value > lim
-        if k in ("low", "low_low"):
-            return value <= lim + db if active else value < lim
-        if k == "rate":
-            if self.direction == "rise":
-                v = value
-            elif self.direction == "fall":
-                v = -value
-            else:
-                v = abs(value)
-            return v >= lim - db if active else v > lim
-        raise ValueError(f"the {k} rule does not test values")
+        return self.kind_of.test(self, value, active)
 
 
 @dataclass(frozen=True)
@@ -355,39 +296,8 @@ def _event(p: AlarmState, kind: str, t_s: float, before: str, message: str, *, s
 
 
 def _describe(rule: Rule, p: AlarmState, value: float | None, active: bool) -> str:
-    """A one-line message of what the rule saw."""
-    src = p.source
-    v = value
-    u = KIND_DEFAULTS[rule.kind].unit
-    k = rule.kind
-    if k in ("high", "high_high", "low", "low_low"):
-        word = {"high": "high", "high_high": "high-high", "low": "low", "low_low": "low-low"}[k]
-        above = k.startswith("high")
-        if active:
-            return f"{src} {v:.2f} °C {'above' if above else 'below'} the {word} limit {rule.limit:.2f} °C"
-        back = rule.limit - rule.deadband if above else rule.limit + rule.deadband
-        return f"{src} {v:.2f} °C, back {'below' if above else 'above'} {back:.2f} °C (limit {rule.limit:.2f} °C, deadband {rule.deadband:g} K)"
-    if k == "rate":
-        if active:
-            return f"{src} changing {v:+.2f} K/min, beyond ±{rule.limit:g} K/min ({rule.direction}, over {rule.window_s:g} s)"
-        return f"{src} changing {v:+.2f} K/min, back within {rule.limit - rule.deadband:g} K/min"
-    if k == "deviation":
-        ref = f"set point {rule.setpoint_c:g} °C" if rule.reference is None else rule.reference
-        if active:
-            return f"{src} {v:.2f} K from {ref}, more than {rule.limit:g} K"
-        return f"{src} {v:.2f} K from {ref}, back within {rule.limit - rule.deadband:g} K"
-    if k == "spread":
-        if active:
-            return f"spread of {src} {v:.2f} K, more than {rule.limit:g} K"
-        return f"spread of {src} {v:.2f} K, back within {rule.limit - rule.deadband:g} K"
-    if k == "sensor_fault":
-        return f"{src}: sensor fault" if active else f"{src}: sensor reads again"
-    if k == "stale":
-        return (f"{src}: no good reading for {v:.0f} s (limit {rule.stale_after_s:g} s)" if active
-                else f"{src}: good readings again")
-    if k == "instrument_lost":
-        return f"instrument {src} lost" if active else f"instrument {src} back"
-    return f"{src} {v} {u}"
+    """A one-line message of what the rule saw (its kind words it)."""
+    return rule.kind_of.describe(rule, p.source, value, active)
 
 
 def _on_condition(p: AlarmState, rule: Rule, active: bool, t_s: float, message: str) -> tuple[AlarmState, list[AlarmEvent]]:
@@ -522,30 +432,6 @@ def return_to_service(p: AlarmState, rule: Rule, now_s: float, *, note: str = ""
 # ---------------------------------------------------------------- the engine
 
 
-@dataclass
-class _Memory:
-    """What the engine remembers of the signals (not of the alarms)."""
-
-    last: dict[str, tuple[float, float]] = field(default_factory=dict)  # channel -> newest good (t, °C)
-    last_good_t: dict[str, float] = field(default_factory=dict)
-    windows: dict[str, deque[tuple[float, float]]] = field(default_factory=dict)
-    started_s: float | None = None
-
-
-def _slope_k_per_min(points: Iterable[tuple[float, float]]) -> float:
-    """Least-squares slope of (t s, °C) points, in K/min."""
-    pts = list(points)
-    n = len(pts)
-    t0 = pts[0][0]
-    mt = sum(t - t0 for t, _ in pts) / n
-    mv = sum(v for _, v in pts) / n
-    sxx = sum((t - t0 - mt) ** 2 for t, _ in pts)
-    if sxx <= 0:
-        return math.nan
-    sxy = sum((t - t0 - mt) * (v - mv) for t, v in pts)
-    return 60.0 * sxy / sxx
-
-
 class AlarmEngine:
     """Every alarm point of a station: ``step`` with samples and the time, operators' requests by function.
 
@@ -563,40 +449,45 @@ class AlarmEngine:
         self._rules: dict[str, Rule] = {}
         self._points: dict[str, AlarmState] = {}
         self._point_rule: dict[str, Rule] = {}
-        self._by_channel: dict[str, list[str]] = {}
-        self._groups: list[tuple[Rule, str]] = []
-        self._timed: list[tuple[Rule, str]] = []
-        self._rate_windows: dict[str, float] = {}
-        self._mem = _Memory()
+        self._memo: dict[str, dict[str, Any]] = {}  # each point's own memory, for its kind
+        self._by_channel: dict[str, list[str]] = {}  # judged on each sample of a channel
+        self._groups: list[tuple[Rule, str]] = []  # judged once per scan of their channels
+        self._timed: list[tuple[Rule, str]] = []  # judged on every step, with the time
+        self._watched: set[str] = set()
+        self._history_s: dict[str, float] = {}
+        self._mem = Signals()
         self._dirty: set[str] = set()
         names = tuple(channels)
         for r in rules:
+            kind = r.kind_of
             chans = names if "*" in r.channels else tuple(dict.fromkeys(r.channels))
             r = replace(r, channels=chans)
-            if r.kind == "instrument_lost" and not r.instruments:
+            if kind.scope == "instrument" and not r.instruments:
                 r = replace(r, instruments=tuple(instruments))
             if r.name in self._rules:
                 raise ValueError(f"two alarm rules are named {r.name!r}")
             self._rules[r.name] = r
-            if r.per_channel:
-                for c in r.channels:
-                    self._add(r, f"{r.name}:{c}", c, c)
-                    if r.kind != "stale":
-                        self._by_channel.setdefault(c, []).append(f"{r.name}:{c}")
-                    if r.kind == "rate":
-                        self._rate_windows[c] = max(self._rate_windows.get(c, 0.0), r.window_s)
-                    if r.kind == "deviation" and r.reference is not None:
-                        self._by_channel.setdefault(r.reference, [])
-                    if r.kind == "stale":
-                        self._timed.append((r, f"{r.name}:{c}"))
-            elif r.kind == "spread":
-                label = "+".join(r.channels)
-                self._add(r, r.name, label, None)
-                self._groups.append((r, r.name))
+            if kind.scope == "channel":
+                points = [(f"{r.name}:{c}", c, c) for c in r.channels]
+            elif kind.scope == "group":
+                points = [(r.name, "+".join(r.channels), None)]
             else:
-                for inst in r.instruments:
-                    self._add(r, f"{r.name}:{inst}", inst, None)
-                    self._timed.append((r, f"{r.name}:{inst}"))
+                points = [(f"{r.name}:{inst}", inst, None) for inst in r.instruments]
+            for pid, source, channel in points:
+                self._add(r, pid, source, channel)
+                if kind.when == "sample" and channel is not None:
+                    self._by_channel.setdefault(channel, []).append(pid)
+                elif kind.when == "scan":
+                    self._groups.append((r, pid))
+                else:
+                    self._timed.append((r, pid))
+            if kind.scope != "instrument":
+                self._watched.update(r.channels)
+            self._watched.update(kind.extra_channels(r))
+            h = kind.history_s(r)
+            if h > 0:
+                for c in r.channels:
+                    self._history_s[c] = max(self._history_s.get(c, 0.0), h)
         for saved in restore:
             mine = self._points.get(saved.id)
             if mine is not None and saved.rule == mine.rule:
@@ -609,6 +500,7 @@ class AlarmEngine:
         state: State = "normal" if rule.in_service else "out_of_service"
         self._points[pid] = AlarmState(pid, rule.name, rule.kind, source, channel, rule.severity, state=state)
         self._point_rule[pid] = rule
+        self._memo[pid] = {}
         self._dirty.add(pid)
 
     @classmethod
@@ -621,21 +513,17 @@ class AlarmEngine:
         instrument always raises an alarm.
         """
         rules = [Rule.from_config(a) for a in cfg.alarms]
-        if builtin and not any(r.kind == "instrument_lost" for r in rules) \
-                and BUILTIN_INSTRUMENT_LOST not in {r.name for r in rules}:
-            rules.append(Rule.of_kind(BUILTIN_INSTRUMENT_LOST, "instrument_lost"))
+        if builtin:
+            names = {r.name for r in rules}
+            for kname, kind in ALARM_RULES.items():
+                if kind.builtin and kind.builtin not in names and not any(r.kind == kname for r in rules):
+                    rules.append(Rule.of_kind(kind.builtin, kname))
         return cls(rules, [c.name for c in cfg.channels], [i.name for i in cfg.instruments], restore=restore)
 
     @property
     def watched_channels(self) -> frozenset[str]:
         """Channels whose samples some rule needs (the others need not be given to ``step``)."""
-        chans: set[str] = set(self._by_channel)
-        for r, _pid in self._groups:
-            chans.update(r.channels)
-        for r, _pid in self._timed:
-            if r.kind == "stale":
-                chans.update(r.channels)
-        return frozenset(chans)
+        return frozenset(self._watched)
 
     # ------------------------------------------------------------ reading
 
@@ -692,11 +580,10 @@ class AlarmEngine:
             i = j
             # every channel's value at t first, so a group or a reference sees the whole scan
             for s in same_time:
-                good = s.status == "ok" and math.isfinite(s.temperature_c)
-                if good:
+                if s.status == "ok" and math.isfinite(s.temperature_c):
                     mem.last[s.channel] = (t, s.temperature_c)
                     mem.last_good_t[s.channel] = t
-                    w = self._rate_windows.get(s.channel)
+                    w = self._history_s.get(s.channel)
                     if w is not None:
                         dq = mem.windows.setdefault(s.channel, deque())
                         dq.append((t, s.temperature_c))
@@ -706,74 +593,29 @@ class AlarmEngine:
             for s in same_time:
                 touched.add(s.channel)
                 for pid in self._by_channel.get(s.channel, ()):
-                    self._evaluate_channel_point(pid, s, out)
+                    self._judge(pid, t, s, out)
             for rule, pid in self._groups:
                 if touched.intersection(rule.channels):
-                    self._evaluate_group(rule, pid, t, out)
-        self._tick(now_s, connected or {}, out)
-        out.sort(key=lambda e: e.t_s)
-        return out
-
-    def _evaluate_channel_point(self, pid: str, s: Sample, out: list[AlarmEvent]) -> None:
-        rule = self._point_rule[pid]
-        k = rule.kind
-        t = s.t_s
-        if k == "sensor_fault":
-            self._apply(pid, s.status in rule.statuses, t, None, out)
-            return
-        good = s.status == "ok" and math.isfinite(s.temperature_c)
-        if not good:
-            return
-        p = self._points[pid]
-        if k in ("high", "high_high", "low", "low_low"):
-            v = s.temperature_c
-        elif k == "rate":
-            dq = self._mem.windows.get(s.channel, deque())
-            pts = [x for x in dq if x[0] >= t - rule.window_s]
-            # a slope needs three points spread over at least half the window
-            if len(pts) < 3 or pts[-1][0] - pts[0][0] < rule.window_s / 2:
-                return
-            v = _slope_k_per_min(pts)
-            if not math.isfinite(v):
-                return
-        elif k == "deviation":
-            if rule.reference is not None:
-                ref = self._mem.last.get(rule.reference)
-                if ref is None or t - ref[0] > rule.max_age_s:
-                    return
-                v = abs(s.temperature_c - ref[1])
-            else:
-                v = abs(s.temperature_c - (rule.setpoint_c if rule.setpoint_c is not None else math.nan))
-                if not math.isfinite(v):
-                    return
-        else:
-            return
-        self._apply(pid, rule.test(v, p.condition), t, v, out)
-
-    def _evaluate_group(self, rule: Rule, pid: str, t: float, out: list[AlarmEvent]) -> None:
-        vals = [v for c in rule.channels if (x := self._mem.last.get(c)) is not None and t - x[0] <= rule.max_age_s
-                for v in (x[1],)]
-        if len(vals) < 2:
-            return
-        spread = max(vals) - min(vals)
-        self._apply(pid, rule.test(spread, self._points[pid].condition), t, spread, out)
-
-    def _tick(self, now_s: float, connected: Mapping[str, bool], out: list[AlarmEvent]) -> None:
-        mem = self._mem
-        for rule, pid in self._timed:
-            p = self._points[pid]
-            if rule.kind == "stale":
-                last = mem.last_good_t.get(p.source, mem.started_s if mem.started_s is not None else now_s)
-                age = max(0.0, now_s - last)
-                self._apply(pid, age > rule.stale_after_s, now_s, age, out)
-            elif rule.kind == "instrument_lost" and p.source in connected:
-                self._apply(pid, not connected[p.source], now_s, None, out)
+                    self._judge(pid, t, None, out)
+        mem.connected = connected or {}
+        for _rule, pid in self._timed:
+            self._judge(pid, now_s, None, out)
+        mem.connected = {}
         for pid, p in list(self._points.items()):
             if p.state == "shelved" and p.shelved_until_s is not None and now_s >= p.shelved_until_s:
                 new, events = unshelve(p, self._point_rule[pid], now_s, expired=True)
                 self._points[pid] = new
                 self._dirty.add(pid)
                 out.extend(events)
+        out.sort(key=lambda e: e.t_s)
+        return out
+
+    def _judge(self, pid: str, t_s: float, sample: Sample | None, out: list[AlarmEvent]) -> None:
+        """One judgement of a point by its kind, then through the delays and the states."""
+        rule = self._point_rule[pid]
+        p = self._points[pid]
+        raw, value = rule.kind_of.judge(rule, Moment(t_s, p.source, p.condition, self._memo[pid], sample), self._mem)
+        self._apply(pid, raw, t_s, value, out)
 
     # ------------------------------------------------------------ operators
 

@@ -18,7 +18,9 @@ from typing import Any
 
 from soaklog.drivers.base import STATUSES
 from soaklog.errors import ConfigError, InputError
-from soaklog.kinds import INSTRUMENTS, SENSORS
+from soaklog.kinds import ALARM_RULES, INSTRUMENTS, SENSORS
+from soaklog.kinds.alarms import COMMON_KEYS as ALARM_COMMON_KEYS
+from soaklog.kinds.alarms import SEVERITIES, AlarmContext, AlarmRuleKind
 from soaklog.kinds.instruments import COMMON_KEYS, InstrumentKind
 from soaklog.kinds.sensors import COMMON_KEYS as SENSOR_COMMON_KEYS
 from soaklog.kinds.sensors import SensorKind
@@ -157,6 +159,11 @@ class AlarmConfig:
     params: Mapping[str, Any]
     actions: tuple[ActionConfig, ...] = ()
 
+    @property
+    def kind_of(self) -> AlarmRuleKind:
+        """The rule kind its ``kind`` names (soaklog.kinds.ALARM_RULES)."""
+        return ALARM_RULES[self.kind]
+
 
 @dataclass(frozen=True)
 class StationConfig:
@@ -229,7 +236,6 @@ _CHANNEL_KEYS = {
     "position", "range_ohm",
 }
 _LEAD_KEYS = {"ohms", "awg", "mm2", "inside_m", "outside_m", "tolerance", "imbalance_fraction"}
-_ALARM_KEYS_COMMON = {"name", "kind", "channel", "channels", "severity"}
 
 
 def load_config(path: str | Path, *, today: _dt.date | None = None) -> StationConfig:
@@ -485,23 +491,8 @@ def _leads(ck: _Checker, d: Mapping[str, Any], key: str, wiring: int | None) -> 
         return None
 
 
-_ALARM_KINDS = {"high", "high_high", "low", "low_low", "rate", "deviation", "spread", "sensor_fault", "stale", "instrument_lost"}
-_SEVERITIES = {"low", "medium", "high", "critical"}
 #: every status a stored reading can have (the store's list; a test keeps them equal)
 _READING_STATUSES = frozenset(STATUSES)
-_ALARM_KEYS_ANY = {"actions", "on_delay", "off_delay", "latch", "shelvable", "in_service", "description"}
-_ALARM_KEYS_KIND: dict[str, set[str]] = {
-    "high": {"limit_c", "deadband_k"},
-    "high_high": {"limit_c", "deadband_k"},
-    "low": {"limit_c", "deadband_k"},
-    "low_low": {"limit_c", "deadband_k"},
-    "rate": {"limit_k_per_min", "deadband_k_per_min", "window", "direction"},
-    "deviation": {"limit_k", "deadband_k", "setpoint_c", "reference", "max_age"},
-    "spread": {"limit_k", "deadband_k", "max_age"},
-    "sensor_fault": {"statuses"},
-    "stale": {"stale_after"},
-    "instrument_lost": {"instrument", "instruments"},
-}
 _ACTION_KINDS = {"log", "program", "scpi", "serial_line"}
 _ACTION_TRIGGERS = {"raised", "cleared", "acknowledged"}
 _ACTION_KEYS: dict[str, set[str]] = {
@@ -515,150 +506,48 @@ _ACTION_KEYS_ANY = {"kind", "on", "name"}
 MAX_ACTION_TIMEOUT_S = 600.0
 
 
-def _delay(ck: _Checker, d: Mapping[str, Any], key: str, name: str, default_s: float) -> float:
-    """A duration that may be zero (a delay), in seconds."""
-    if name not in d:
-        return default_s
-    try:
-        s = parse_duration(d[name])
-    except InputError as exc:
-        ck.bad(f"{key}.{name}", str(exc))
-        return default_s
-    return s
-
-
 def _alarms(
     ck: _Checker, raw: Any, channel_names: set[str], instruments: Sequence[InstrumentConfig] = (),
     channels: Sequence[ChannelConfig] = (),
 ) -> list[AlarmConfig]:
-    from soaklog.alarms import (
-        DEFAULT_MAX_AGE_S,
-        DEFAULT_RATE_WINDOW_S,
-        DEFAULT_STALE_AFTER_S,
-        FAULT_STATUSES,
-        KIND_DEFAULTS,
-    )
-
+    """The ``[[alarm]]`` tables: the keys every rule has here, its kind's own keys read by the kind."""
     out: list[AlarmConfig] = []
     seen: set[str] = set()
-    inst_by_name = {i.name: i for i in instruments}
+    intervals = {i.name: i.interval_s for i in instruments}
     inst_of_channel = {c.name: c.instrument for c in channels}
     for i, item in enumerate(_array(ck, raw, "alarm")):
         key = f"alarm[{i + 1}]"
         d = ck.table(item, key)
         name = ck.get(d, key, "name", str, required=True)
         _unique_name(ck, seen, name, key)
-        kind = ck.get(d, key, "kind", str, required=True,
-                      check=lambda v: None if v in _ALARM_KINDS else f"must be one of {', '.join(sorted(_ALARM_KINDS))}, got {v!r}")
-        kd = KIND_DEFAULTS.get(kind or "")
-        sev = ck.get(d, key, "severity", str, default=kd.severity if kd else "high",
-                     check=lambda v: None if v in _SEVERITIES else f"must be one of {', '.join(sorted(_SEVERITIES))}, got {v!r}")
-        chans: list[str] = []
-        if "channel" in d:
-            c = ck.get(d, key, "channel", str)
-            chans = [c] if c else []
-        if "channels" in d:
-            cs = d["channels"]
-            if not isinstance(cs, list) or not all(isinstance(x, str) for x in cs):
-                ck.bad(f"{key}.channels", f"must be a list of channel names, got {cs!r}")
-            else:
-                chans += cs
+        kind_name = ck.get(d, key, "kind", str, required=True, check=one_of(ALARM_RULES.names))
+        kind = ALARM_RULES.get(kind_name) if kind_name is not None else None
+        sev = ck.get(d, key, "severity", str, default=kind.defaults.severity if kind else "high",
+                     check=one_of(SEVERITIES))
+        chans = ck.names(d, key, "channel", "channels", "channel")
         for c in chans:
             if c not in channel_names and c != "*":
                 ck.bad(f"{key}.channels", f"no channel named {c!r}")
-        if kd is None or kind is None:
+        if kind is None or kind_name is None:
             # an unknown kind: which other keys belong to it cannot be told
             continue
-        ck.unknown(d, key, _ALARM_KEYS_COMMON | _ALARM_KEYS_ANY | _ALARM_KEYS_KIND[kind])
+        ck.unknown(d, key, set(ALARM_COMMON_KEYS) | set(kind.keys))
+        kd = kind.defaults
         p: dict[str, Any] = {}
-        p["on_delay_s"] = _delay(ck, d, key, "on_delay", kd.on_delay_s)
-        p["off_delay_s"] = _delay(ck, d, key, "off_delay", kd.off_delay_s)
+        p["on_delay_s"] = ck.delay(d, key, "on_delay", kd.on_delay_s)
+        p["off_delay_s"] = ck.delay(d, key, "off_delay", kd.off_delay_s)
         for flag, default in (("latch", kd.latch), ("shelvable", kd.shelvable), ("in_service", True)):
             v = ck.get(d, key, flag, bool, default=default)
             p[flag] = default if v is None else v
         if "description" in d:
             p["description"] = ck.get(d, key, "description", str, default="") or ""
-        all_chans = sorted(channel_names) if "*" in chans else chans
-        if kind == "instrument_lost":
-            if chans:
-                ck.bad(f"{key}.channels", "an instrument_lost alarm watches instruments: give instrument or instruments")
-            names: list[str] = []
-            if "instrument" in d:
-                v = ck.get(d, key, "instrument", str)
-                names += [v] if v else []
-            if "instruments" in d:
-                vs = d["instruments"]
-                if not isinstance(vs, list) or not all(isinstance(x, str) for x in vs):
-                    ck.bad(f"{key}.instruments", f"must be a list of instrument names, got {vs!r}")
-                else:
-                    names += vs
-            for n in names:
-                if n not in inst_by_name:
-                    ck.bad(f"{key}.instruments", f"no instrument named {n!r}; known: {', '.join(inst_by_name) or 'none'}")
-            p["instruments"] = tuple(dict.fromkeys(names))
-        elif not chans:
-            ck.bad(f"{key}.channels", 'is required: the channels it watches (channels = ["*"] for all)')
-        if kd.limit_key is not None:
-            positive = kind in ("rate", "deviation", "spread")
-            limit = ck.get(d, key, kd.limit_key, float, required=True, check=_positive if positive else None)
-            db_key = "deadband_k_per_min" if kind == "rate" else "deadband_k"
-            default_db = kd.deadband * abs(limit) if kind == "rate" and limit is not None else kd.deadband
-            db = ck.get(d, key, db_key, float, default=default_db, check=_non_negative)
-            if limit is not None:
-                p[kd.limit_key] = limit
-            if db is not None:
-                if positive and limit is not None and db >= limit:
-                    ck.bad(f"{key}.{db_key}", f"must be smaller than the limit ({limit:g}), got {db:g}")
-                p[db_key] = db
-        if kind == "rate":
-            p["window_s"] = ck.duration(d, key, "window", default=None) or DEFAULT_RATE_WINDOW_S
-            direction = ck.get(d, key, "direction", str, default="both",
-                               check=lambda v: None if v in ("rise", "fall", "both") else f"must be rise, fall or both, got {v!r}")
-            p["direction"] = direction or "both"
-        if kind in ("deviation", "spread"):
-            p["max_age_s"] = ck.duration(d, key, "max_age", default=None) or DEFAULT_MAX_AGE_S
-        if kind == "deviation":
-            has_sp, has_ref = "setpoint_c" in d, "reference" in d
-            if has_sp == has_ref:
-                ck.bad(key, "a deviation alarm needs setpoint_c (a fixed set point) or reference (a channel), one of them")
-            elif has_sp:
-                sp = ck.get(d, key, "setpoint_c", float)
-                if sp is not None:
-                    p["setpoint_c"] = sp
-            else:
-                ref = ck.get(d, key, "reference", str)
-                if ref is not None and ref not in channel_names:
-                    ck.bad(f"{key}.reference", f"no channel named {ref!r}")
-                elif ref is not None and ref in all_chans:
-                    ck.bad(f"{key}.reference", f"{ref!r} is one of the channels it watches; compare with another channel")
-                elif ref is not None:
-                    p["reference"] = ref
-        if kind == "spread" and chans and len(set(all_chans)) < 2:
-            ck.bad(f"{key}.channels", f"a spread needs two channels or more, got {all_chans!r}")
-        if kind == "sensor_fault":
-            sts = d.get("statuses", sorted(FAULT_STATUSES))
-            if not isinstance(sts, list) or not sts or not all(isinstance(x, str) for x in sts):
-                ck.bad(f"{key}.statuses", f"must be a list of reading statuses, got {sts!r}")
-            else:
-                bad = [x for x in sts if x not in _READING_STATUSES or x == "ok"]
-                if bad:
-                    ck.bad(f"{key}.statuses", f"unknown status {bad[0]!r}; known: "
-                           f"{', '.join(sorted(_READING_STATUSES - {'ok'}))}")
-                else:
-                    p["statuses"] = tuple(sts)
-        if kind == "stale":
-            slowest = max((inst_by_name[inst_of_channel[c]].interval_s for c in all_chans
-                           if c in inst_of_channel and inst_of_channel[c] in inst_by_name), default=0.0)
-            # three missed scans at least, so one late scan never raises it (common practice, no published source)
-            default_s = max(DEFAULT_STALE_AFTER_S, 3.0 * slowest)
-            after = ck.duration(d, key, "stale_after", default=None)
-            if after is not None and after <= slowest:
-                ck.bad(f"{key}.stale_after", f"must be longer than the slowest scan interval of its channels ({slowest:g} s), got {after:g} s")
-            p["stale_after_s"] = after if after is not None else default_s
+        watched = tuple(sorted(channel_names)) if "*" in chans else tuple(chans)
+        ctx = AlarmContext(frozenset(channel_names), tuple(chans), watched, intervals, inst_of_channel)
+        p.update(kind.read(ck, d, key, ctx))
         actions = _actions(ck, d.get("actions", []), f"{key}.actions") if "actions" in d else []
         if name is None or sev is None:
             continue
-        out.append(AlarmConfig(name, kind, tuple(chans), sev, p, tuple(actions)))
+        out.append(AlarmConfig(name, kind_name, tuple(chans), sev, p, tuple(actions)))
     return out
 
 

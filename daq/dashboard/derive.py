@@ -11,15 +11,12 @@ from dataclasses import dataclass
 from soaklog.dashboard.plan import RunPlan
 from soaklog.dashboard.records import ChannelRow, Snapshot
 from soaklog.dashboard.units import fmt_age
+from soaklog.kinds.alarms.stale import stale_after_s as _stale_after_interval_s
 
 __all__ = ["MARK", "Condition", "Verdict", "alarmed_channels", "channel_condition", "run_state", "stale_after_s", "verdict"]
 
 #: the marker of a row that needs a look (two characters, so it is seen at a glance)
 MARK = "!!"
-
-#: a channel whose instrument's interval is not known counts as stale after this
-_DEFAULT_STALE_S = 60.0
-
 
 @dataclass(frozen=True)
 class Condition:
@@ -31,13 +28,11 @@ class Condition:
 def stale_after_s(plan: RunPlan, instrument: str) -> float:
     """How old a channel's last good reading may get before it counts as stale.
 
-    Three missed scans, and never less than one scan plus 10 s for the commit
-    and a slow reply. # common practice, no published source
+    The one definition soaklog has (``soaklog.kinds.alarms.stale``), the same
+    as the stale alarm's default: the dashboard marks a channel stale exactly
+    when that alarm would see it so.
     """
-    interval = plan.intervals_s.get(instrument)
-    if interval is None:
-        return _DEFAULT_STALE_S
-    return max(3.0 * interval, interval + 10.0)
+    return _stale_after_interval_s(plan.intervals_s.get(instrument))
 
 
 def channel_condition(row: ChannelRow, now_ms: int, plan: RunPlan, *, alarmed: bool = False) -> Condition:
@@ -66,7 +61,7 @@ def run_state(snap: Snapshot) -> tuple[str, str]:
     newest = max((c.t_ms for c in snap.channels if c.t_ms is not None), default=None)
     if newest is None:
         return "WAITING", "no readings yet"
-    limit = max((stale_after_s(snap.run.plan, c.instrument) for c in snap.channels), default=_DEFAULT_STALE_S)
+    limit = max((stale_after_s(snap.run.plan, c.instrument) for c in snap.channels), default=_stale_after_interval_s(None))
     age = (snap.now_ms - newest) / 1000.0
     if age > limit:
         return "SILENT", f"nothing new for {fmt_age(age)}: is the logger running?"

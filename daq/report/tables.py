@@ -227,9 +227,10 @@ def _limits(run: RunData) -> dict[str, tuple[float | None, float | None]]:
             if name not in out:
                 continue
             hi, lo = out[name]
-            if a.kind in ("high", "high_high"):
+            side = a.kind_of.limit_line
+            if side == "upper":
                 hi = float(limit) if hi is None else min(hi, float(limit))
-            elif a.kind in ("low", "low_low"):
+            elif side == "lower":
                 lo = float(limit) if lo is None else max(lo, float(limit))
             out[name] = (hi, lo)
     return out

@@ -7,6 +7,7 @@ from collections.abc import Callable
 from pathlib import Path
 
 from soaklog.clock import AcceleratedClock
+from soaklog.config import parse_config
 from soaklog.demo import build_demo_config
 from soaklog.service import Service
 from soaklog.store import Store
@@ -26,7 +27,7 @@ def wait_for(condition: Callable[[], object], timeout_s: float = 30.0, what: str
 class AlarmLab:
     """A started lab and a started logger on the demo scenario, the heater supply's address filled in."""
 
-    def __init__(self, tmp_path: Path, speed: float) -> None:
+    def __init__(self, tmp_path: Path, speed: float, extra: str = "") -> None:
         self.tmp_path = tmp_path
         self.speed = speed
         self.lab = Lab(speed=speed, board_link=str(tmp_path / "board"), control_port=None).start()
@@ -34,6 +35,8 @@ class AlarmLab:
         self.config = build_demo_config(addr.meter_resource or "", str(tmp_path / "board"),
                                         str(tmp_path / "station.db"), where=str(tmp_path / "demo.toml"),
                                         supply_resource=addr.supply_resource)
+        if extra:  # more of the station file (alarms), checked as the file is
+            self.config = parse_config(self.config.text + extra, self.config.path)
         self.clock = AcceleratedClock(self.lab.world.clock, speed=speed, epoch_utc_s=EPOCH_UTC_S)
         self.service: Service | None = None
         self.start_service(new_run=True)

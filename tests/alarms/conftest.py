@@ -13,8 +13,8 @@ from alarmlab import AlarmLab
 def alarm_lab(tmp_path: Path) -> Iterator[Callable[..., AlarmLab]]:
     labs: list[AlarmLab] = []
 
-    def start(speed: float = 120.0) -> AlarmLab:
-        lab = AlarmLab(tmp_path, speed)
+    def start(speed: float = 120.0, extra: str = "") -> AlarmLab:
+        lab = AlarmLab(tmp_path, speed, extra)
         labs.append(lab)
         return lab
 

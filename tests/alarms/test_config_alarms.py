@@ -165,3 +165,16 @@ def test_the_reading_statuses_known_to_alarms_are_the_ones_the_readme_documents(
     para = readme[readme.index("`status` is `ok` or a short reason:"):]
     documented = set(re.findall(r"`([a-z_]+)`", para[:para.index(".")]))
     assert documented - {"status"} == set(_READING_STATUSES) == set(STATUS_CODES)
+
+
+@pytest.mark.parametrize(("interval", "stale_s"), [("10s", 60.0), ("30s", 90.0), ("2s", 60.0)])
+def test_the_dashboard_and_the_stale_alarm_mean_the_same_by_stale(interval, stale_s):
+    """One definition: at least three scans, never under a minute (common practice, no published source)."""
+    from soaklog.dashboard.derive import stale_after_s
+    from soaklog.dashboard.plan import RunPlan
+
+    text = STATION.replace('interval = "30s"', f'interval = "{interval}"')
+    cfg = parse_config(text + '[[alarm]]\nname = "quiet"\nkind = "stale"\nchannels = ["*"]\n', PATH)
+    assert cfg.alarms[0].params["stale_after_s"] == stale_s
+    plan = RunPlan(intervals_s={i.name: i.interval_s for i in cfg.instruments})
+    assert stale_after_s(plan, "meter") == stale_s

@@ -309,8 +309,10 @@ def test_temperature_defaults_follow_the_alarm_management_guidance():
     for kind in ("high_high", "low_low"):
         dd = KIND_DEFAULTS[kind]
         assert (dd.on_delay_s, dd.latch, dd.shelvable, dd.severity) == (0.0, True, False, "critical")
+    # the built-in kinds, each one module of soaklog/kinds/alarms/
     assert set(KIND_DEFAULTS) == {
-        "high", "high_high", "low", "low_low", "rate", "deviation", "spread", "sensor_fault", "stale", "instrument_lost"}
+        "high", "high_high", "low", "low_low", "rate", "deviation", "spread", "sensor_fault", "stale", "instrument_lost",
+        "flatline"}
 
 
 # ---------------------------------------------------------------- properties
@@ -381,6 +383,7 @@ PROPERTY_RULES = [
     Rule.of_kind("bad", "sensor_fault", ["a"]),
     Rule.of_kind("quiet", "stale", ["a"], stale_after_s=45.0),
     Rule.of_kind("gone", "instrument_lost"),
+    Rule.of_kind("stuck", "flatline", ["a"], for_s=60.0, band_k=5.0),
 ]
 
 
