@@ -24,6 +24,7 @@ from soaklog.errors import InputError
 
 if TYPE_CHECKING:  # the config (and numpy with it) loads only where a command needs it
     from soaklog.config import StationConfig
+    from soaklog.store import AlarmRow
 
 __all__ = ["cmd_ack", "test_actions", "bench_alarm_latency", "ACTIONS_CAUTION"]
 
@@ -40,15 +41,15 @@ ACTIONS_CAUTION = (
 # ---------------------------------------------------------------- soaklog ack
 
 
-def _matches(alarms: Sequence[dict[str, Any]], target: str) -> list[dict[str, Any]]:
+def _matches(alarms: Sequence[AlarmRow], target: str) -> list[AlarmRow]:
     if target in ("", "*"):
         return list(alarms)
-    return [a for a in alarms if a["id"] == target or a["rule"] == target]
+    return [a for a in alarms if a.id == target or a.rule == target]
 
 
 def cmd_ack(args: argparse.Namespace) -> int:
     """``soaklog ack``: queue the acknowledgement, wait for the logger's outcome, print it."""
-    from soaklog.store import Store
+    from soaklog.store import StoreReader, StoreWriter
 
     if args.all and args.alarm and not args.config:
         args.config, args.alarm = args.alarm, None  # `ack --all CONFIG`
@@ -60,31 +61,31 @@ def cmd_ack(args: argparse.Namespace) -> int:
         raise InputError(f"--wait must not be negative, got {args.wait!r}")
     path = db_path(args)
     target = "*" if args.all else str(args.alarm)
-    with Store.open(path, readonly=True) as store:
+    with StoreReader.open(path) as store:
         run = store.run()
-        alarms = store.alarms(int(run["id"]))
+        alarms = store.alarms(run.id)
     named = _matches(alarms, target)
     if not named and not args.all:
-        known = ", ".join(a["id"] for a in alarms[:10]) or "none"
-        raise InputError(f"no alarm {target!r} in run {run['id']} of {path}; known: {known}")
-    waiting = [a for a in named if a["state"] in _WAITING]
+        known = ", ".join(a.id for a in alarms[:10]) or "none"
+        raise InputError(f"no alarm {target!r} in run {run.id} of {path}; known: {known}")
+    waiting = [a for a in named if a.state in _WAITING]
     if not waiting:
-        print(f"soaklog ack: nothing waits for an acknowledgement in {target if target != '*' else 'run ' + str(run['id'])}")
+        print(f"soaklog ack: nothing waits for an acknowledgement in {target if target != '*' else 'run ' + str(run.id)}")
         return 0
     actor = args.actor or f"{getpass.getuser()}@{socket.gethostname()}"
-    with Store.open(path) as store:
+    with StoreWriter.open(path) as store:
         req = store.add_operator_action("acknowledge", target=target, note=args.note, actor=actor,
                                         now_ms=int(time.time() * 1000))
-    print(f"soaklog ack: request {req} queued for {', '.join(a['id'] for a in waiting)}")
+    print(f"soaklog ack: request {req} queued for {', '.join(a.id for a in waiting)}")
     if args.wait == 0:
         return 0
     deadline = time.monotonic() + args.wait
     while time.monotonic() < deadline:
-        with Store.open(path, readonly=True) as store:
-            row = next((r for r in store.operator_actions(after_id=req - 1, limit=1) if r["id"] == req), None)
-        if row is not None and row["applied_ms"] is not None:
-            print(f"soaklog ack: {row['outcome']}")
-            return 0 if str(row["outcome"]).startswith("applied") else 1
+        with StoreReader.open(path) as store:
+            row = next((r for r in store.operator_actions(after_id=req - 1, limit=1) if r.id == req), None)
+        if row is not None and row.applied_ms is not None:
+            print(f"soaklog ack: {row.outcome}")
+            return 0 if str(row.outcome).startswith("applied") else 1
         time.sleep(0.1)
     print(f"soaklog ack: no logger applied request {req} within {args.wait:g} s: is the logger running on {path}? "
           "A logger that starts within a minute applies it; later it is recorded as not applied.", file=sys.stderr)
@@ -156,7 +157,7 @@ def bench_alarm_latency(repeats: int = 6, interval_s: float = 1.0, wall_limit_s:
     from soaklog.clock import SystemClock
     from soaklog.config import parse_config
     from soaklog.service import Service
-    from soaklog.store import Store
+    from soaklog.store import StoreReader
     from soaklog.simulators.lab import Lab
 
     latencies: list[float] = []
@@ -197,8 +198,8 @@ def bench_alarm_latency(repeats: int = 6, interval_s: float = 1.0, wall_limit_s:
         finally:
             svc.stop()
             quiet.setLevel(level)
-        with Store.open(cfg.database, readonly=True) as store:
-            done = [e["data"] for e in store.events(run_id) if e["kind"] == "action_done"]
+        with StoreReader.open(cfg.database) as store:
+            done = [e.data or {} for e in store.events(run_id) if e.kind == "action_done"]
         latencies = [float(d["latency_s"]) for d in done]
         starts = [_utc_s(d["started_utc"]) for d in done]
     fault_to_action = [s - i for s, i in zip(starts, injected, strict=False)]
@@ -222,10 +223,10 @@ def _utc_s(iso: str) -> float:
 
 
 def _count(database: str, run_id: int, kind: str) -> int:
-    from soaklog.store import Store
+    from soaklog.store import StoreReader
 
-    with Store.open(database, readonly=True) as store:
-        return sum(1 for e in store.events(run_id) if e["kind"] == kind)
+    with StoreReader.open(database) as store:
+        return sum(1 for e in store.events(run_id) if e.kind == kind)
 
 
 def _wait_count(database: str, run_id: int, kind: str, count: int, deadline: float) -> bool:

@@ -105,7 +105,7 @@ def _ingest_round(n_channels: int, n_scans: int, seed: int) -> dict[str, Any]:
 
     from soaklog.config import parse_config
     from soaklog.pipeline import Pipeline
-    from soaklog.store import TEMP_SCALE, U_SCALE, Store
+    from soaklog.store import TEMP_SCALE, U_SCALE, StoreWriter
     from soaklog.drivers import scpi_meter
 
     parse = getattr(scpi_meter, "parse_scan", scpi_meter.parse_reply)
@@ -114,7 +114,7 @@ def _ingest_round(n_channels: int, n_scans: int, seed: int) -> dict[str, Any]:
         db = str(Path(tmp) / "ingest.db")
         cfg = parse_config(station_text(n_channels, db), str(Path(tmp) / "bench.toml"))
         inputs = [c.input for c in cfg.channels]
-        store = Store.open(db)
+        store = StoreWriter.open(db)
         info = store.begin_run(cfg.text, now_ms=1_800_000_000_000)
         ids = store.ensure_channels(info.run_id, [(c.name, c.label, c.instrument, "ohm") for c in cfg.channels])
         pipeline = Pipeline(cfg, ids)
@@ -143,7 +143,7 @@ def _ingest_round(n_channels: int, n_scans: int, seed: int) -> dict[str, Any]:
 
         # the baseline: the same rows, prepared, into the same schema, with the same commits
         base_db = str(Path(tmp) / "bare.db")
-        Store.open(base_db).close()
+        StoreWriter.open(base_db).close()
         conn = sqlite3.connect(base_db, isolation_level=None)
         conn.execute("PRAGMA journal_mode=WAL")
         conn.execute("PRAGMA synchronous=NORMAL")
@@ -187,11 +187,11 @@ def bench_trend(n_channels: int = 32, hours: float = 1000.0, seed: int = 11) -> 
     import tempfile
     from pathlib import Path
 
-    from soaklog.store import SampleBatch, Store
+    from soaklog.store import SampleBatch, StoreReader, StoreWriter
 
     rng = np.random.default_rng(seed)
     with tempfile.TemporaryDirectory(prefix="soaklog-bench-") as tmp:
-        store = Store.open(str(Path(tmp) / "trend.db"))
+        store = StoreWriter.open(str(Path(tmp) / "trend.db"))
         info = store.begin_run("bench", now_ms=1_800_000_000_000)
         ids = list(store.ensure_channels(info.run_id, [(f"ch{i}", "", "meter", "ohm") for i in range(n_channels)]).values())
         t0 = 1_800_000_000_000
@@ -213,7 +213,7 @@ def bench_trend(n_channels: int = 32, hours: float = 1000.0, seed: int = 11) -> 
             store.write(info.run_id, SampleBatch(ch, t.astype(np.int64), np.full(t.size, 130.0), temp,
                                                  np.full(t.size, 0.4), np.zeros(t.size, np.int64), np.zeros(t.size, np.int64)))
         store.close()
-        reader = Store.open(str(Path(tmp) / "trend.db"), readonly=True)
+        reader = StoreReader.open(str(Path(tmp) / "trend.db"))
         t_end = t_last0 + 3600 * 1000
         best_trend = best_raw = best_summary = float("inf")
         points = 0
@@ -226,14 +226,14 @@ def bench_trend(n_channels: int = 32, hours: float = 1000.0, seed: int = 11) -> 
             summary = reader.summary(info.run_id)
             d = time.perf_counter()
             best_trend, best_raw, best_summary = min(best_trend, b - a), min(best_raw, c - b), min(best_summary, d - c)
-            points = len(tr["t_ms"])
+            points = len(tr.t_ms)
         reader.close()
     return {
         "trend_hours": hours,
         "trend_query_ms": best_trend * 1e3,
         "trend_points": points,
         "trend_raw_10min_ms": best_raw * 1e3,
-        "trend_raw_points": len(raw["t_ms"]),
+        "trend_raw_points": len(raw.t_ms),
         "summary_32ch_ms": best_summary * 1e3,
         "summary_channels": len(summary),
     }

@@ -113,13 +113,13 @@ def bench_startup(rounds: int = 7) -> dict[str, Any]:
 def _has_reading(db: Path) -> bool:
     """Whether the file has a stored reading (read as any viewer reads it: read-only, through the store)."""
     from soaklog.errors import StorageError
-    from soaklog.store import Store
+    from soaklog.store import StoreReader
 
     if not db.exists():
         return False
     try:
-        with Store.open(db, readonly=True, timeout_s=0.5) as store:
-            return store.time_span(int(store.run()["id"]))[0] is not None
+        with StoreReader.open(db, timeout_s=0.5) as store:
+            return store.time_span(store.run().id)[0] is not None
     except StorageError:  # its schema or its run not written yet
         return False
 

@@ -22,12 +22,15 @@ import time
 from collections.abc import Callable
 from importlib import resources
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from soaklog.clock import AcceleratedClock
 from soaklog.config import StationConfig, parse_config
 from soaklog.errors import StorageError
 from soaklog.service import Service
+
+if TYPE_CHECKING:
+    from soaklog.store import EventRow
 
 __all__ = ["demo_config_text", "build_demo_config", "run_demo", "DEFAULT_SPEED", "RUNAWAY_AT_S", "SAFETY_LINES"]
 
@@ -93,24 +96,24 @@ class _Story:
     def __init__(self, database: str, run_id: int, epoch_utc_s: float, out: Callable[[str], None]) -> None:
         self.database, self.run_id, self.epoch, self.out = database, run_id, epoch_utc_s, out
         self.after_id = 0
-        self.events: list[dict[str, Any]] = []
+        self.events: list[EventRow] = []
 
-    def poll(self) -> list[dict[str, Any]]:
-        from soaklog.store import Store
+    def poll(self) -> list[EventRow]:
+        from soaklog.store import StoreReader
 
         try:
-            with Store.open(self.database, readonly=True) as store:
+            with StoreReader.open(self.database) as store:
                 new = store.events(self.run_id, after_id=self.after_id)
         except StorageError:
             return []
         for e in new:
-            self.after_id = max(self.after_id, int(e["id"]))
-            label = self._TOLD.get(e["kind"])
+            self.after_id = max(self.after_id, e.id)
+            label = self._TOLD.get(e.kind)
             if label is None:
                 continue
-            when = _fmt_clock(e["t_ms"] / 1000.0 - self.epoch)
-            sev = f" [{e['severity']}]" if e["kind"] == "alarm_raised" else ""
-            self.out(f"  {when}  {label}{sev} {e['message']}")
+            when = _fmt_clock(e.t_ms / 1000.0 - self.epoch)
+            sev = f" [{e.severity}]" if e.kind == "alarm_raised" else ""
+            self.out(f"  {when}  {label}{sev} {e.message}")
         self.events.extend(new)
         return new
 
@@ -195,9 +198,9 @@ def _run(*, database: str, duration_s: float | None, speed: float, seed: int, ou
                         out(f"  {_fmt_clock(t_chamber)}  FAULT  the chamber's controller fails: heater stuck at full "
                             f"power (air {air:.1f} °C)")
                     for e in story.poll():
-                        if tripped_at is None and e["kind"] == "action_done" and str(
-                                e["data"].get("alarm", "")).startswith(TRIP_RULE):
-                            tripped_at = e["t_ms"] / 1000.0 - epoch
+                        if tripped_at is None and e.kind == "action_done" and str(
+                                (e.data or {}).get("alarm", "")).startswith(TRIP_RULE):
+                            tripped_at = e.t_ms / 1000.0 - epoch
                             out(f"  {_fmt_clock(tripped_at)}  the interlock switched the heater supply off "
                                 f"(supply output {'on' if lab.world.heater_supply_enabled else 'off'}); the chamber's own "
                                 "cut-out is the real protection")
@@ -226,7 +229,7 @@ def _run(*, database: str, duration_s: float | None, speed: float, seed: int, ou
                 "tripped_at_s": tripped_at, "recovered_at_s": recovered_at, "peak_air_c": peak_air_c,
                 "heater_supply_on": lab.world.heater_supply_enabled,
                 "supply_received": lab.supply.received() if lab.supply is not None else [],
-                "events": [(e["kind"], e["message"]) for e in story.events],
+                "events": [(e.kind, e.message) for e in story.events],
             }
     db = summary["database"]
     out("")
@@ -247,15 +250,15 @@ def _run(*, database: str, duration_s: float | None, speed: float, seed: int, ou
 
 def _all_clear(database: str, run_id: int) -> bool:
     """Whether no high or high-high alarm of the demo has its condition active any more."""
-    from soaklog.store import Store
+    from soaklog.store import StoreReader
 
     try:
-        with Store.open(database, readonly=True) as store:
+        with StoreReader.open(database) as store:
             rows = store.alarms(run_id)
     except StorageError:
         return False
-    mine = [a for a in rows if a["rule"] in (TRIP_RULE, HIGH_RULE)]
-    return bool(mine) and not any(a["condition"] for a in mine)
+    mine = [a for a in rows if a.rule in (TRIP_RULE, HIGH_RULE)]
+    return bool(mine) and not any(a.condition for a in mine)
 
 
 def main_demo(database: str, duration_s: float | None, speed: float, headless: bool) -> int:

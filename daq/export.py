@@ -10,7 +10,7 @@ from datetime import datetime
 from typing import IO
 
 from soaklog.errors import InputError
-from soaklog.store import Store, iso_utc
+from soaklog.store import StoreReader, iso_utc
 
 __all__ = ["export_run", "parse_time"]
 
@@ -32,7 +32,7 @@ def parse_time(text: str) -> int:
 
 
 def export_run(
-    store: Store,
+    store: StoreReader,
     out: IO[str],
     *,
     run_id: int | None = None,
@@ -43,17 +43,18 @@ def export_run(
 ) -> int:
     """Write the run's readings to ``out``; returns the number written."""
     run = store.run(run_id)
-    rid = int(run["id"])
-    first, last = store.time_span(rid)
+    first, last = store.time_span(run.id)
     span = None if first is None or last is None else ((from_ms or first), (to_ms or last))
     n = 0
     writer = csv.writer(out, lineterminator="\n") if fmt == "csv" else None
     if writer is not None:
-        out.write(f"# soaklog export: run {rid} {run['name']} station {run['station']}; times UTC (ISO 8601); "
+        out.write(f"# soaklog export: run {run.id} {run.name} station {run.station}; times UTC (ISO 8601); "
                   "raw in raw_unit; temperature in degC; uncertainty_c_k2 = expanded uncertainty, k = 2, in K\n")
         writer.writerow(CSV_HEADER)
-    for chunk in store.iter_readings(rid, from_ms=from_ms, to_ms=to_ms):
-        for t_ms, ch, raw, unit, temp, u, status in chunk:
+    for chunk in store.iter_readings(run.id, from_ms=from_ms, to_ms=to_ms):
+        rows = zip(chunk.t_ms, chunk.channel, chunk.raw, chunk.raw_unit, chunk.temperature_c, chunk.uncertainty_c,
+                   chunk.status, strict=True)
+        for t_ms, ch, raw, unit, temp, u, status in rows:
             if writer is not None:
                 writer.writerow([
                     iso_utc(t_ms), ch, "" if raw is None else repr(raw), unit,
@@ -65,8 +66,8 @@ def export_run(
                     "temperature_c": temp, "uncertainty_c": u, "status": status,
                 }) + "\n")
         n += len(chunk)
-        if progress is not None and span is not None and chunk:
-            progress(int(chunk[-1][0]) - span[0], max(1, span[1] - span[0]))
+        if progress is not None and span is not None and len(chunk):
+            progress(int(chunk.t_ms[-1]) - span[0], max(1, span[1] - span[0]))
     return n
 
 

@@ -41,8 +41,7 @@ from soaklog.config import ChannelConfig, InstrumentConfig, StationConfig
 from soaklog.errors import InstrumentError, StorageError
 from soaklog.pipeline import Pipeline
 from soaklog.sensors.leads import Leads
-from soaklog.store import SampleBatch, Store, iso_utc, status_name
-from soaklog.store.alarms import AlarmRow, EventRow
+from soaklog.store import AlarmRow, EventRow, SampleBatch, StoreWriter, iso_utc, status_name
 from soaklog.drivers.base import Driver, RawReading
 
 __all__ = ["Service", "ServiceStats", "default_driver_factory", "MAX_BUFFERED_READINGS"]
@@ -126,7 +125,7 @@ class Service:
         self._threads: list[threading.Thread] = []
         self._drivers: dict[str, Driver] = {}
         self.stats = ServiceStats()
-        self.store: Store | None = None
+        self.store: StoreWriter | None = None
         self.run_id: int | None = None
         self.pipeline: Pipeline | None = None
         self._started = False
@@ -145,7 +144,7 @@ class Service:
     def start(self) -> int:
         """Open the store, continue or begin the run, start the threads; returns the run id."""
         cfg = self.config
-        store = Store.open(cfg.database)
+        store = StoreWriter.open(cfg.database)
         self.store = store
         now_ms = int(self.clock.utc_s() * 1000)
         info = store.begin_run(
@@ -368,20 +367,20 @@ class Service:
 
     # ------------------------------------------------------------ alarms
 
-    def _start_alarms(self, store: Store, run_id: int, *, continued: bool, now_ms: int) -> None:
+    def _start_alarms(self, store: StoreWriter, run_id: int, *, continued: bool, now_ms: int) -> None:
         """Build the engine (continuing a run's stored alarm states) and the action runner."""
         cfg = self.config
-        restore = [_state_of(r, self._ch_names) for r in store.alarm_states(run_id)] if continued else []
+        restore = [_state_of(r, self._ch_names) for r in store.alarms(run_id)] if continued else []
         self.alarms = AlarmEngine.from_config(cfg, restore=restore)
         self._watched = self.alarms.watched_channels
         self.actions = ActionRunner({a.name: a.actions for a in cfg.alarms}, station=cfg.station,
                                     utc_s=self.clock.utc_s)
         self._save_states(store, run_id, self.alarms.changed(), now_ms)
         for req in store.pending_operator_actions():
-            if req["t_ms"] < now_ms - STALE_REQUEST_S * 1000:
+            if req.t_ms < now_ms - STALE_REQUEST_S * 1000:
                 store.mark_operator_action(
-                    req["id"], now_ms=now_ms,
-                    outcome=f"not applied: queued at {iso_utc(req['t_ms'])} while no logger was running on this file")
+                    req.id, now_ms=now_ms,
+                    outcome=f"not applied: queued at {iso_utc(req.t_ms)} while no logger was running on this file")
 
     def _judge(self, batch: SampleBatch, connected: dict[str, bool | None]) -> None:
         """Run the engine on a fresh batch; hand the events' actions over at once."""
@@ -421,7 +420,7 @@ class Service:
                 int(round(e.t_s * 1000.0)), e.kind, e.message, e.severity,
                 self._ch_ids.get(e.channel) if e.channel else None, data))
 
-    def _alarm_interval(self, store: Store, run_id: int, connected: dict[str, bool | None]) -> None:
+    def _alarm_interval(self, store: StoreWriter, run_id: int, connected: dict[str, bool | None]) -> None:
         """Each commit interval: time-driven alarms, operators' requests, actions' outcomes, then store them."""
         engine = self.alarms
         if engine is None:
@@ -434,20 +433,20 @@ class Service:
             requests = []
         for req in requests:
             duration = None
-            if req["until_ms"] is not None:
+            if req.until_ms is not None:
                 # the requested length, measured from the service's own clock (a viewer's clock may differ)
-                duration = (int(req["until_ms"]) - int(req["t_ms"])) / 1000.0
-            res = engine.apply(req["kind"], req["target"] or "*", now_s, note=req["note"] or "",
-                               actor=req["actor"] or "", duration_s=duration)
+                duration = (int(req.until_ms) - int(req.t_ms)) / 1000.0
+            res = engine.apply(req.kind, req.target or "*", now_s, note=req.note or "",
+                               actor=req.actor or "", duration_s=duration)
             self._on_alarm_events(res.events)
             outcome = ("applied: " if res.events else "not applied: ") + res.outcome
             if not res.events:
-                who = f" by {req['actor']}" if req["actor"] else ""
+                who = f" by {req.actor}" if req.actor else ""
                 self._events_out.append(EventRow(
-                    int(now_s * 1000), "operator_request", f"{req['kind']} {req['target'] or '*'}{who}: {res.outcome}",
-                    "info", None, {"request": req["id"]}))
+                    int(now_s * 1000), "operator_request", f"{req.kind} {req.target or '*'}{who}: {res.outcome}",
+                    "info", None, {"request": req.id}))
             try:
-                store.mark_operator_action(int(req["id"]), now_ms=int(now_s * 1000), outcome=outcome)
+                store.mark_operator_action(int(req.id), now_ms=int(now_s * 1000), outcome=outcome)
             except StorageError as exc:
                 log.error("%s", exc)
         self._record_outcomes()
@@ -459,7 +458,7 @@ class Service:
         for o in self.actions.outcomes():
             self._events_out.append(_outcome_event(o, self._ch_ids))
 
-    def _flush_alarms(self, store: Store, run_id: int) -> None:
+    def _flush_alarms(self, store: StoreWriter, run_id: int) -> None:
         """Store the waiting alarm events and changed states; keep them while the disk refuses."""
         if self.alarms is not None:
             for p in self.alarms.changed():
@@ -476,7 +475,7 @@ class Service:
             if self._save_states(store, run_id, list(self._unsaved.values()), now_ms):
                 self._unsaved = {}
 
-    def _save_states(self, store: Store, run_id: int, states: Sequence[AlarmState], now_ms: int) -> bool:
+    def _save_states(self, store: StoreWriter, run_id: int, states: Sequence[AlarmState], now_ms: int) -> bool:
         rows = [_row_of(p, self._ch_ids) for p in states]
         try:
             store.save_alarm_states(run_id, rows, now_ms=now_ms)
@@ -499,7 +498,7 @@ class Service:
                         severity="critical", data={"dropped": dropped})
         return pending, n
 
-    def _event(self, store: Store, run_id: int, kind: str, message: str, *, severity: str = "info",
+    def _event(self, store: StoreWriter, run_id: int, kind: str, message: str, *, severity: str = "info",
                data: dict[str, Any] | None = None, ch: int | None = None) -> None:
         try:
             store.add_event(run_id, int(self.clock.utc_s() * 1000), kind, message,
@@ -507,7 +506,7 @@ class Service:
         except StorageError as exc:
             log.error("event %s not recorded (%s): %s", kind, exc, message)
 
-    def _note_health(self, store: Store, run_id: int, scan: _Scan, connected: dict[str, bool | None]) -> None:
+    def _note_health(self, store: StoreWriter, run_id: int, scan: _Scan, connected: dict[str, bool | None]) -> None:
         now = bool(scan.health.get("connected", any(r.ok for r in scan.readings)))
         before = connected.get(scan.instrument)
         connected[scan.instrument] = now
@@ -527,7 +526,7 @@ class Service:
             self._event(store, run_id, "instrument_recovered", f"{scan.instrument}: back", severity="info")
             log.warning("%s recovered", scan.instrument)
 
-    def _store_health(self, store: Store, run_id: int) -> None:
+    def _store_health(self, store: StoreWriter, run_id: int) -> None:
         now_ms = int(self.clock.utc_s() * 1000)
         for name, d in self._drivers.items():
             try:

@@ -7,38 +7,36 @@ from typing import Any
 
 from soaklog.config import StationConfig
 from soaklog.sensors.flags import flag_names
-from soaklog.store import Store
+from soaklog.store import StoreReader
 
 __all__ = ["status_report", "format_status", "check_report", "format_check"]
 
 
-def status_report(store: Store, run_id: int | None = None, *, now_ms: int | None = None) -> dict[str, Any]:
+def status_report(store: StoreReader, run_id: int | None = None, *, now_ms: int | None = None) -> dict[str, Any]:
     """The newest value of every channel and the active alarms (the `status --json` contract)."""
     run = store.run(run_id)
-    rid = int(run["id"])
     channels = []
-    for c in store.latest(rid):
+    for c in store.latest(run.id):
         age = None
-        if now_ms is not None and c["last_ok_ms"] is not None:
-            age = max(0.0, (now_ms - c["last_ok_ms"]) / 1000.0)
+        if now_ms is not None and c.last_ok_ms is not None:
+            age = max(0.0, (now_ms - c.last_ok_ms) / 1000.0)
         channels.append({
-            "id": c["id"], "label": c["label"], "instrument": c["instrument"],
-            "temperature_c": c["temperature_c"], "uncertainty_c": c["uncertainty_c"],
-            "status": c["status"], "flags": flag_names(c["flags"]), "t_utc": c["t_utc"],
-            "raw": c["raw"], "raw_unit": c["raw_unit"], "min_c": c["min_c"], "max_c": c["max_c"],
+            "id": c.channel, "label": c.label, "instrument": c.instrument,
+            "temperature_c": c.temperature_c, "uncertainty_c": c.uncertainty_c,
+            "status": c.status, "flags": flag_names(c.flags), "t_utc": c.t_utc,
+            "raw": c.raw, "raw_unit": c.raw_unit, "min_c": c.min_c, "max_c": c.max_c,
             "last_good_age_s": age,
         })
-    alarms = store.alarms(rid, active_only=True)
     return {
         "database": store.path,
-        "run": {"id": rid, "station": run["station"], "name": run["name"], "started_utc": run["started_utc"],
-                "ended_utc": run["ended_utc"]},
+        "run": {"id": run.id, "station": run.station, "name": run.name, "started_utc": run.started_utc,
+                "ended_utc": run.ended_utc},
         "channels": channels,
-        "alarms": alarms,
+        "alarms": [a.as_json() for a in store.alarms(run.id, active_only=True)],
         "instruments": [
-            {"name": i["name"], "connected": i["connected"], "identity": i["identity"],
-             "last_error": i["health"].get("last_error", "")}
-            for i in store.instruments(rid)
+            {"name": i.name, "connected": i.connected, "identity": i.identity,
+             "last_error": i.health.get("last_error", "")}
+            for i in store.instruments(run.id)
         ],
     }
 

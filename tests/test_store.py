@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from soaklog.errors import StorageError
-from soaklog.store import STATUS_CODES, SampleBatch, Store
+from soaklog.store import STATUS_CODES, SampleBatch, StoreReader, StoreWriter
 
 T0 = 1_764_633_600_000  # 2025-12-02T00:00:00Z in ms
 
@@ -30,7 +30,7 @@ def batch(ch_ids, t_ms, temps, *, status=None, raw=None):
 
 @pytest.fixture
 def store(tmp_path):
-    s = Store.open(tmp_path / "station.db")
+    s = StoreWriter.open(tmp_path / "station.db")
     yield s
     s.close()
 
@@ -69,14 +69,14 @@ def test_same_config_continues_the_run_and_a_change_starts_a_new_one(store):
     assert again.continued and again.run_id == info.run_id and again.last_t_ms == T0 + 5000
     other = store.begin_run("[station]\nname = 'b'\n", now_ms=T0 + 120_000)
     assert not other.continued and other.run_id != info.run_id
-    assert store.run()["config"] == "[station]\nname = 'b'\n"
+    assert store.run().config == "[station]\nname = 'b'\n"
 
 
 def test_migrations_are_safe_to_run_twice(tmp_path):
     p = tmp_path / "m.db"
-    with Store.open(p) as s:
+    with StoreWriter.open(p) as s:
         v = s.schema_version()
-    with Store.open(p) as s:
+    with StoreWriter.open(p) as s:
         assert s.migrate() == v
         assert s.integrity_check() == "ok"
 
@@ -92,25 +92,26 @@ def test_rollups_agree_with_the_raw_readings(store):
         k = temps[sl].shape[0]
         store.write(info.run_id, batch([ids["t1"]] * k, T0 + 1000 * np.arange(start, start + k), temps[sl],
                                        status=np.where(np.isnan(temps[sl]), STATUS_CODES["timeout"], 0)))
-    (s1,) = [r for r in store.summary(info.run_id) if r["channel"] == "t1"]
+    (s1,) = [r for r in store.summary(info.run_id) if r.channel == "t1"]
     good = temps[~np.isnan(temps)]
-    assert s1["readings"] == n
-    assert s1["without_temperature"] == int(np.isnan(temps).sum())
-    assert s1["min_c"] == pytest.approx(good.min(), abs=1e-6)
-    assert s1["max_c"] == pytest.approx(good.max(), abs=1e-6)
-    assert s1["mean_c"] == pytest.approx(good.mean(), abs=1e-6)
+    assert s1.readings == n
+    assert s1.without_temperature == int(np.isnan(temps).sum())
+    assert s1.min_c == pytest.approx(good.min(), abs=1e-6)
+    assert s1.max_c == pytest.approx(good.max(), abs=1e-6)
+    assert s1.mean_c == pytest.approx(good.mean(), abs=1e-6)
     # a 1-hour window from the raw rows, the whole run from the rollups: the same mean
     tr_raw = store.trend(ids["t1"], T0, T0 + 3600_000 - 1)
-    assert tr_raw["source"] == "raw" and len(tr_raw["t_ms"]) == 3600
+    assert tr_raw.source == "raw" and len(tr_raw.t_ms) == 3600
     tr_roll = store.trend(ids["t1"], T0, T0 + n * 1000, max_points=90)
-    assert tr_roll["source"] == "rollup" and len(tr_roll["t_ms"]) <= 90
-    assert np.nanmean(tr_roll["mean_c"]) == pytest.approx(good.mean(), abs=0.01)
+    assert tr_roll.source == "rollup" and len(tr_roll.t_ms) <= 90
+    assert np.nanmean(tr_roll.mean_c) == pytest.approx(good.mean(), abs=0.01)
 
 
 def test_window_is_exact_at_its_edges(store):
     info, ids = new_run(store)
     store.write(info.run_id, batch([ids["t1"]] * 300, T0 + 1000 * np.arange(300), np.arange(300.0)))
-    t, temp, _ = store.raw_window(ids["t1"], T0 + 59_000, T0 + 121_000)
+    w = store.raw_window(ids["t1"], T0 + 59_000, T0 + 121_000)
+    t, temp = w.t_ms, w.temperature_c
     assert t[0] == T0 + 59_000 and t[-1] == T0 + 121_000 and len(t) == 63
     np.testing.assert_allclose(temp, np.arange(59.0, 122.0), atol=1e-6)
 
@@ -121,19 +122,19 @@ def test_a_second_run_with_earlier_clock_does_not_mix_windows(store):
     store.write(a.run_id, batch([ida["t1"]] * 120, T0 + 1000 * np.arange(120), np.full(120, 1.0)))
     b, idb = new_run(store, config="b")
     store.write(b.run_id, batch([idb["t1"]] * 120, T0 + 1000 * np.arange(120), np.full(120, 2.0)))
-    _, temp_b, _ = store.raw_window(idb["t1"], T0, T0 + 119_000)
+    temp_b = store.raw_window(idb["t1"], T0, T0 + 119_000).temperature_c
     assert len(temp_b) == 120 and np.all(temp_b == 2.0)
 
 
 def test_reader_sees_commits_and_does_not_block_the_writer(tmp_path):
     p = tmp_path / "w.db"
-    w = Store.open(p)
+    w = StoreWriter.open(p)
     info, ids = new_run(w)
-    r = Store.open(p, readonly=True)
+    r = StoreReader.open(p)
     w.write(info.run_id, batch([ids["t1"]], [T0], [1.0]))
-    assert r.latest(info.run_id)[0]["temperature_c"] == 1.0
+    assert r.latest(info.run_id)[0].temperature_c == 1.0
     w.write(info.run_id, batch([ids["t1"]], [T0 + 1000], [2.0]))
-    assert r.latest(info.run_id)[0]["temperature_c"] == 2.0
+    assert r.latest(info.run_id)[0].temperature_c == 2.0
     with pytest.raises(sqlite3.OperationalError):
         r.connection.execute("INSERT INTO events (run_id, t_ms, kind, message) VALUES (1, 0, 'x', 'y')")
     r.close()
@@ -142,7 +143,7 @@ def test_reader_sees_commits_and_does_not_block_the_writer(tmp_path):
 
 def test_readonly_open_of_a_missing_file_says_what_to_do(tmp_path):
     with pytest.raises(StorageError, match="no database"):
-        Store.open(tmp_path / "nothing.db", readonly=True)
+        StoreReader.open(tmp_path / "nothing.db")
 
 
 def test_disk_full_raises_storage_error_and_stores_nothing_of_the_batch(store):
@@ -188,10 +189,50 @@ def test_a_version_2_file_upgrades_and_its_totals_come_from_the_rollups(tmp_path
     )
     conn.execute("INSERT INTO latest (ch, t_ms, status, flags, t_min_c, t_max_c) VALUES (1, 119000, 0, 0, 18.5, 22.0)")
     conn.close()
-    with Store.open(p) as s:
+    with StoreWriter.open(p) as s:
         assert s.schema_version() >= 3
         (row,) = s.summary(1)
     # worked by hand: 120 readings, 2 without temperature, mean = (1200 + 1160) / 118
-    assert row["readings"] == 120 and row["without_temperature"] == 2
-    assert row["mean_c"] == pytest.approx(2360.0 / 118.0)
-    assert row["max_u_c"] == 0.4 and row["min_c"] == 18.5 and row["max_c"] == 22.0
+    assert row.readings == 120 and row.without_temperature == 2
+    assert row.mean_c == pytest.approx(2360.0 / 118.0)
+    assert row.max_u_c == 0.4 and row.min_c == 18.5 and row.max_c == 22.0
+
+
+def test_a_file_missing_a_table_is_a_storage_error_that_names_what_and_where(tmp_path):
+    """A reader never lets sqlite3.Error out: viewers catch StorageError alone (issue 11)."""
+    p = tmp_path / "damaged.db"
+    with StoreWriter.open(p) as w:
+        info, ids = new_run(w)
+        w.write(info.run_id, batch([ids["t1"]] * 3, T0 + 1000 * np.arange(3), np.full(3, 20.0)))
+    with sqlite3.connect(p) as conn:  # damage it as another program could
+        conn.execute("DROP TABLE latest")
+        conn.execute("DROP TABLE minute_index")
+    with StoreReader.open(p) as r:
+        assert r.run().id == info.run_id  # what is still there reads
+        with pytest.raises(StorageError, match=r"cannot read the latest readings from .*damaged\.db: no such table: latest"):
+            r.latest(info.run_id)
+        with pytest.raises(StorageError, match=r"cannot read readings from .*damaged\.db: no such table: minute_index"):
+            next(r.iter_readings(info.run_id))  # a generator: translated while iterated
+        with pytest.raises(StorageError, match="no such table"):
+            r.summary(info.run_id)
+
+
+def test_a_locked_file_is_a_storage_error_for_every_write(tmp_path):
+    p = tmp_path / "locked.db"
+    w = StoreWriter.open(p, timeout_s=0.05)
+    info, ids = new_run(w)
+    other = sqlite3.connect(p, isolation_level=None, timeout=0.05)
+    other.execute("BEGIN IMMEDIATE")  # another writer holds the file
+    try:
+        with pytest.raises(StorageError, match=r"cannot record the run in .*locked\.db: database is locked"):
+            w.begin_run("[station]\nname = 'other'\n", now_ms=T0)
+        with pytest.raises(StorageError, match=r"cannot write 1 readings to .*locked\.db: database is locked"):
+            w.write(info.run_id, batch([ids["t1"]], [T0], [1.0]))
+        with pytest.raises(StorageError, match="database is locked"):
+            w.add_event(info.run_id, T0, "service_start", "logger started")
+    finally:
+        other.execute("ROLLBACK")
+        other.close()
+    w.write(info.run_id, batch([ids["t1"]], [T0], [1.0]))  # and all is well once it lets go
+    assert w.latest(info.run_id)[0].temperature_c == 1.0
+    w.close()

@@ -32,11 +32,11 @@ def add_parser(sub: Subparsers) -> None:
 def run(args: argparse.Namespace) -> int:
     """Run ``soaklog export``."""
     from soaklog.export import export_run, parse_time, terminal_progress
-    from soaklog.store import Store
+    from soaklog.store import StoreReader
 
     from_ms = parse_time(args.from_t) if args.from_t else None
     to_ms = parse_time(args.to_t) if args.to_t else None
-    with Store.open(db_path(args), readonly=True) as store:
+    with StoreReader.open(db_path(args)) as store:
         if args.out:
             with open(args.out, "w", encoding="utf-8", newline="") as fh:
                 n = export_run(store, fh, run_id=args.run, fmt=args.format, from_ms=from_ms, to_ms=to_ms,

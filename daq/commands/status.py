@@ -28,9 +28,9 @@ def run(args: argparse.Namespace) -> int:
     import time
 
     from soaklog.status import format_status, status_report
-    from soaklog.store import Store
+    from soaklog.store import StoreReader
 
-    with Store.open(db_path(args), readonly=True) as store:
+    with StoreReader.open(db_path(args)) as store:
         rep = status_report(store, args.run, now_ms=int(time.time() * 1000))
     if args.json:
         print(json.dumps(rep, indent=2))

@@ -23,7 +23,7 @@ from typing import Any
 
 import numpy as np
 
-from soaklog.store import SampleBatch, Store
+from soaklog.store import SampleBatch, StoreWriter
 
 __all__ = ["bench_dashboard_cpu", "bench_trend_open", "build_long_run", "main"]
 
@@ -69,7 +69,7 @@ def build_long_run(path: str | Path, *, hours: float = 1000.0, n_channels: int =
     rng = np.random.default_rng(seed)
     end = int(end_ms if end_ms is not None else time.time() * 1000) // 1000 * 1000
     t0 = end - int(hours * 3_600_000)
-    store = Store.open(path)
+    store = StoreWriter.open(path)
     info = store.begin_run(_CONFIG, now_ms=t0, station="bench", name="dashboard bench")
     ids = list(store.ensure_channels(info.run_id, [(f"ch{i:02d}", f"Channel {i:02d}", "meter", "ohm")
                                                     for i in range(n_channels)]).values())
@@ -131,7 +131,7 @@ def bench_dashboard_cpu(*, n_channels: int = 32, seconds: float = 20.0, warm_s: 
         stop = threading.Event()
 
         def write() -> None:
-            store = Store.open(db)
+            store = StoreWriter.open(db)
             rng = np.random.default_rng(1)
             k = 0
             next_t = time.monotonic()

@@ -2,14 +2,16 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 import numpy.typing as npt
 
 from soaklog.dashboard.plan import RunPlan
+
+if TYPE_CHECKING:
+    from soaklog.store import AlarmRow as StoredAlarm
 
 __all__ = [
     "ALARM_STATE_ORDER",
@@ -113,12 +115,11 @@ class AlarmRow:
         return self.state != "normal"
 
     @classmethod
-    def from_store(cls, d: Mapping[str, Any]) -> AlarmRow:
+    def from_store(cls, a: StoredAlarm) -> AlarmRow:
         return cls(
-            id=str(d.get("id", "")), rule=str(d.get("rule") or ""), channel=str(d.get("channel") or ""),
-            state=str(d.get("state") or ""), severity=str(d.get("severity") or ""),
-            message=str(d.get("message") or ""), since_utc=str(d.get("since_utc") or ""),
-            acked=bool(d.get("acked")), shelved_until_utc=str(d.get("shelved_until_utc") or ""),
+            id=a.id, rule=a.rule or "", channel=a.channel or "", state=a.state or "", severity=a.severity or "",
+            message=a.message or "", since_utc=a.since_utc or "", acked=a.acked,
+            shelved_until_utc=a.shelved_until_utc or "",
         )
 
 

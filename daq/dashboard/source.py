@@ -17,7 +17,6 @@ import time
 from collections import deque
 from collections.abc import Callable
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 
@@ -36,7 +35,8 @@ from soaklog.dashboard.records import (
     order_alarms,
 )
 from soaklog.dashboard.units import parse_utc_ms
-from soaklog.store import Store
+from soaklog.store import InstrumentRow as StoredInstrument
+from soaklog.store import LatestRow, StoreReader, StoreWriter, Trend
 
 __all__ = ["RATE_WINDOW_S", "StoreSource", "default_actor", "submit_operator_action"]
 
@@ -72,7 +72,7 @@ def submit_operator_action(
     Raises:
         StorageError: the file cannot be written (read-only media, another soaklog version).
     """
-    store = Store.open(db_path)
+    store = StoreWriter.open(db_path)
     try:
         return store.add_operator_action(kind, target=target, note=note, actor=actor, now_ms=now_ms,
                                          until_ms=until_ms)
@@ -92,20 +92,20 @@ class _Trend:
         self.source = ""
         self.read_at = -1e18
 
-    def replace(self, tr: dict[str, Any]) -> None:
-        self.t = np.asarray(tr["t_ms"], dtype=np.int64)
-        self.mean = np.asarray(tr["mean_c"], dtype=np.float64)
-        self.lo = np.asarray(tr["min_c"], dtype=np.float64)
-        self.hi = np.asarray(tr["max_c"], dtype=np.float64)
-        self.source = str(tr["source"])
+    def replace(self, tr: Trend) -> None:
+        self.t = np.asarray(tr.t_ms, dtype=np.int64)
+        self.mean = np.asarray(tr.mean_c, dtype=np.float64)
+        self.lo = np.asarray(tr.min_c, dtype=np.float64)
+        self.hi = np.asarray(tr.max_c, dtype=np.float64)
+        self.source = tr.source
 
-    def extend(self, tr: dict[str, Any], from_ms: int) -> None:
+    def extend(self, tr: Trend, from_ms: int) -> None:
         keep = self.t < from_ms
-        self.t = np.concatenate([self.t[keep], np.asarray(tr["t_ms"], dtype=np.int64)])
-        self.mean = np.concatenate([self.mean[keep], np.asarray(tr["mean_c"], dtype=np.float64)])
-        self.lo = np.concatenate([self.lo[keep], np.asarray(tr["min_c"], dtype=np.float64)])
-        self.hi = np.concatenate([self.hi[keep], np.asarray(tr["max_c"], dtype=np.float64)])
-        self.source = str(tr["source"])
+        self.t = np.concatenate([self.t[keep], np.asarray(tr.t_ms, dtype=np.int64)])
+        self.mean = np.concatenate([self.mean[keep], np.asarray(tr.mean_c, dtype=np.float64)])
+        self.lo = np.concatenate([self.lo[keep], np.asarray(tr.min_c, dtype=np.float64)])
+        self.hi = np.concatenate([self.hi[keep], np.asarray(tr.max_c, dtype=np.float64)])
+        self.source = tr.source
 
     def trim(self, from_ms: int) -> None:
         keep = self.t >= from_ms
@@ -127,7 +127,7 @@ class StoreSource:
     def __init__(self, db_path: str | Path, *, run_id: int | None = None,
                  clock: Callable[[], float] = time.time, run_reread_s: float = _RUN_REREAD_S) -> None:
         self.db_path = str(Path(db_path).resolve())
-        self._store = Store.open(self.db_path, readonly=True)
+        self._store = StoreReader.open(self.db_path)
         self._wanted_run = run_id
         self._clock = clock
         self._run_reread_s = run_reread_s
@@ -139,7 +139,6 @@ class StoreSource:
         self._history: dict[str, deque[tuple[int, float]]] = {}
         self._last_ok: dict[str, int | None] = {}
         self._trends: dict[str, _Trend] = {}
-        self._alarm_problem = ""
 
     def close(self) -> None:
         self._store.close()
@@ -157,7 +156,7 @@ class StoreSource:
         assert run is not None
         rid = run.run_id
         latest = self._store.latest(rid)
-        newest = max((c["t_ms"] for c in latest if c["t_ms"] is not None), default=None)
+        newest = max((c.t_ms for c in latest if c.t_ms is not None), default=None)
         clock_ms = int(self._clock() * 1000)
         live = run.ended_ms is None
         # never before the run's start or its newest reading: an accelerated logger's file runs
@@ -170,7 +169,7 @@ class StoreSource:
             self._seed_history(latest, now_ms)
         channels = tuple(self._channel_row(c) for c in latest)
         instruments = tuple(self._instrument_row(i) for i in self._store.instruments(rid))
-        alarms = tuple(order_alarms([AlarmRow.from_store(a) for a in self._alarms(rid)]))
+        alarms = tuple(order_alarms([AlarmRow.from_store(a) for a in self._store.alarms(rid)]))
         events = self._new_events(rid, first=reset)
         if any(e.kind in ("service_start", "service_stop", "gap") for e in events):
             self._run_read_at = -1e18
@@ -181,7 +180,7 @@ class StoreSource:
             t_from, t_to = self._window(request, run, now_ms)
             trends = self._read_trends(request, latest, t_from, t_to)
         self._seq += 1
-        problem = run.plan.problem or self._alarm_problem
+        problem = run.plan.problem
         return Snapshot(
             seq=self._seq, now_ms=now_ms, run=run, live=live, channels=channels, instruments=instruments,
             alarms=alarms, events=events, actions=actions, trend_request=request, trends=trends,
@@ -197,12 +196,12 @@ class StoreSource:
             return False
         self._run_read_at = mono
         row = self._store.run(self._wanted_run)
-        rid = int(row["id"])
+        rid = row.id
         changed = self._run is None or self._run.run_id != rid
-        plan = run_plan(row.get("config") or "") if changed or self._run is None else self._run.plan
+        plan = run_plan(row.config or "") if changed or self._run is None else self._run.plan
         self._run = RunView(
-            run_id=rid, station=str(row.get("station") or ""), name=str(row.get("name") or ""),
-            started_ms=parse_utc_ms(row.get("started_utc")), ended_ms=parse_utc_ms(row.get("ended_utc")),
+            run_id=rid, station=row.station or "", name=row.name or "",
+            started_ms=parse_utc_ms(row.started_utc), ended_ms=parse_utc_ms(row.ended_utc),
             database=self.db_path, plan=plan if isinstance(plan, RunPlan) else RunPlan(),
         )
         if changed:
@@ -214,14 +213,14 @@ class StoreSource:
 
     # ------------------------------------------------------------ channels
 
-    def _seed_history(self, latest: list[dict[str, Any]], now_ms: int) -> None:
+    def _seed_history(self, latest: list[LatestRow], now_ms: int) -> None:
         """The rate of change needs a little history: read the last window once, at the start."""
         lo = now_ms - int(RATE_WINDOW_S * 1000)
         for c in latest:
-            t, temp, _u = self._store.raw_window(int(c["ch"]), lo, now_ms)
-            good = np.isfinite(temp)
-            self._history[c["id"]] = deque(zip(t[good].tolist(), temp[good].tolist(), strict=True))
-            self._last_ok[c["id"]] = c["last_ok_ms"]
+            w = self._store.raw_window(c.ch, lo, now_ms)
+            good = np.isfinite(w.temperature_c)
+            self._history[c.channel] = deque(zip(w.t_ms[good].tolist(), w.temperature_c[good].tolist(), strict=True))
+            self._last_ok[c.channel] = c.last_ok_ms
 
     def _rate(self, name: str, last_ok_ms: int | None, last_ok_c: float | None) -> float | None:
         hist = self._history.setdefault(name, deque())
@@ -241,21 +240,21 @@ class StoreSource:
         slope = np.polyfit(t_min, arr[:, 1], 1)[0]
         return float(slope)
 
-    def _channel_row(self, c: dict[str, Any]) -> ChannelRow:
-        ok = c["status"] == "ok"
-        rate = self._rate(c["id"], c["last_ok_ms"], c["last_ok_temperature_c"])
+    def _channel_row(self, c: LatestRow) -> ChannelRow:
+        ok = c.status == "ok"
+        rate = self._rate(c.channel, c.last_ok_ms, c.last_ok_temperature_c)
         return ChannelRow(
-            name=c["id"], label=c["label"] or c["id"], instrument=c["instrument"] or "",
-            temperature_c=c["temperature_c"], uncertainty_c=c["uncertainty_c"], status=c["status"],
-            t_ms=c["t_ms"], last_ok_ms=c["last_ok_ms"], min_c=c["min_c"], max_c=c["max_c"],
-            rate_k_per_min=rate if ok else None, raw=c["raw"], raw_unit=c["raw_unit"] or "", ch=int(c["ch"]),
+            name=c.channel, label=c.label or c.channel, instrument=c.instrument or "",
+            temperature_c=c.temperature_c, uncertainty_c=c.uncertainty_c, status=c.status,
+            t_ms=c.t_ms, last_ok_ms=c.last_ok_ms, min_c=c.min_c, max_c=c.max_c,
+            rate_k_per_min=rate if ok else None, raw=c.raw, raw_unit=c.raw_unit or "", ch=c.ch,
         )
 
     # ------------------------------------------------------------ the rest
 
     @staticmethod
-    def _instrument_row(i: dict[str, Any]) -> InstrumentRow:
-        h = i["health"] if isinstance(i["health"], dict) else {}
+    def _instrument_row(i: StoredInstrument) -> InstrumentRow:
+        h = i.health
 
         def count(key: str) -> int | None:
             v = h.get(key)
@@ -266,30 +265,20 @@ class StoreSource:
             return int(float(v) * 1000) if isinstance(v, (int, float)) and not isinstance(v, bool) else None
 
         return InstrumentRow(
-            name=i["name"], connected=bool(i["connected"]), identity=str(i["identity"] or h.get("identity") or ""),
-            updated_ms=i["updated_ms"], last_ok_ms=ms("last_ok_utc_s"), reads=count("reads"), errors=count("errors"),
+            name=i.name, connected=i.connected, identity=str(i.identity or h.get("identity") or ""),
+            updated_ms=i.updated_ms, last_ok_ms=ms("last_ok_utc_s"), reads=count("reads"), errors=count("errors"),
             timeouts=count("timeouts"), reconnects=count("reconnects"), bad_frames=count("bad_frames"),
             last_error=str(h.get("last_error") or ""), last_error_ms=ms("last_error_utc_s"),
         )
-
-    def _alarms(self, run_id: int) -> list[dict[str, Any]]:
-        try:
-            rows = self._store.alarms(run_id)
-            self._alarm_problem = ""
-            return rows
-        except NotImplementedError as exc:
-            self._alarm_problem = f"alarm states not readable: {exc}"
-            return []
 
     def _new_events(self, run_id: int, *, first: bool) -> tuple[EventRow, ...]:
         out: deque[EventRow] = deque(maxlen=_FIRST_EVENTS if first else None)
         while True:
             rows = self._store.events(run_id, after_id=self._last_event_id, limit=5000)
             for e in rows:
-                out.append(EventRow(int(e["id"]), int(e["t_ms"]), str(e["kind"]), str(e["channel"] or ""),
-                                    str(e["severity"] or ""), str(e["message"] or "")))
+                out.append(EventRow(e.id, e.t_ms, e.kind, e.channel or "", e.severity or "", e.message or ""))
             if rows:
-                self._last_event_id = int(rows[-1]["id"])
+                self._last_event_id = rows[-1].id
             if len(rows) < 5000:
                 break
         return tuple(out)
@@ -297,8 +286,8 @@ class StoreSource:
     def _new_actions(self) -> tuple[ActionRow, ...]:
         rows = self._store.operator_actions(after_id=self._action_cursor)
         out = tuple(
-            ActionRow(int(r["id"]), int(r["t_ms"]), str(r["kind"]), str(r["target"] or ""), str(r["note"] or ""),
-                      str(r["actor"] or ""), r["until_ms"], r["applied_ms"], r["outcome"])
+            ActionRow(r.id, r.t_ms, r.kind, r.target or "", r.note or "", r.actor or "", r.until_ms, r.applied_ms,
+                      r.outcome)
             for r in rows
         )
         pending = [a.id for a in out if a.applied_ms is None]
@@ -319,9 +308,9 @@ class StoreSource:
             return int(min(start, now_ms - 1000)), int(now_ms)
         return int(now_ms - span * 1000), int(now_ms)
 
-    def _read_trends(self, request: TrendRequest, latest: list[dict[str, Any]], t_from: int,
+    def _read_trends(self, request: TrendRequest, latest: list[LatestRow], t_from: int,
                      t_to: int) -> tuple[TrendSeries, ...]:
-        by_name = {c["id"]: c for c in latest}
+        by_name = {c.channel: c for c in latest}
         wanted = [n for n in request.channels if n in by_name]
         for name in list(self._trends):
             if name not in wanted:
@@ -330,7 +319,7 @@ class StoreSource:
         mono = time.monotonic()
         short = WINDOW_S[request.window] is not None and (WINDOW_S[request.window] or 0) <= 3600
         for name in wanted:
-            ch = int(by_name[name]["ch"])
+            ch = by_name[name].ch
             held = self._trends.get(name)
             if held is None or held.window != request.window:
                 held = _Trend(request.window)
@@ -345,5 +334,5 @@ class StoreSource:
                 held.replace(self._store.trend(ch, t_from, t_to))
                 held.read_at = mono
             c = by_name[name]
-            out.append(TrendSeries(name, c["label"] or name, held.t, held.mean, held.lo, held.hi, held.source))
+            out.append(TrendSeries(name, c.label or name, held.t, held.mean, held.lo, held.hi, held.source))
         return tuple(out)

@@ -27,9 +27,12 @@ from __future__ import annotations
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+
+if TYPE_CHECKING:
+    from soaklog.store import EventRow
 
 
 def iso_time(t_s: float) -> str:
@@ -96,31 +99,31 @@ class AlarmRates:
     by_severity: Mapping[str, int]
 
 
-def _key(ev: Mapping[str, Any]) -> tuple[str, str]:
+def _key(ev: EventRow) -> tuple[str, str]:
     """The alarm point an event is about: its id (``data["alarm"]``, else the rule) and channel."""
-    data = ev.get("data") or {}
+    data = ev.data or {}
     point = data.get("alarm") or data.get("rule") or data.get("name") or ""
-    channel = ev.get("channel") or data.get("channel") or ""
+    channel = ev.channel or data.get("channel") or ""
     return str(point), str(channel)
 
 
-def alarm_episodes(events: Iterable[Mapping[str, Any]]) -> list[Episode]:
+def alarm_episodes(events: Iterable[EventRow]) -> list[Episode]:
     """Episodes from a run's events in time order (events of other kinds are ignored)."""
     open_: dict[tuple[str, str], dict[str, Any]] = {}
     done: list[dict[str, Any]] = []
     order: list[dict[str, Any]] = []
-    for ev in sorted(events, key=lambda e: (e.get("t_ms") or 0, e.get("id") or 0)):
-        kind = str(ev.get("kind", ""))
+    for ev in sorted(events, key=lambda e: (e.t_ms or 0, e.id or 0)):
+        kind = ev.kind
         if kind not in ALARM_KINDS:
             continue
-        t = float(ev.get("t_ms") or 0) / 1000.0
+        t = float(ev.t_ms or 0) / 1000.0
         key = _key(ev)
-        data = ev.get("data") or {}
+        data = ev.data or {}
         if kind in RAISED:
             if key in open_:
                 continue  # a repeated raise while active is the same episode
-            ep = {"key": key, "rule": str(data.get("rule") or key[0]), "channel": key[1], "severity": str(ev.get("severity") or ""),
-                  "message": str(ev.get("message") or ""), "raised_s": t, "cleared_s": None,
+            ep = {"key": key, "rule": str(data.get("rule") or key[0]), "channel": key[1], "severity": ev.severity or "",
+                  "message": ev.message or "", "raised_s": t, "cleared_s": None,
                   "acknowledged_s": None, "acknowledged_by": "", "actions": [], "notes": []}
             open_[key] = ep
             order.append(ep)
@@ -151,7 +154,7 @@ def alarm_episodes(events: Iterable[Mapping[str, Any]]) -> list[Episode]:
             at = iso_time(t)
             ep["actions"].append(f"{what}: {outcome} at {at}")
         else:
-            ep["notes"].append(f"{kind.replace('_', ' ')}: {ev.get('message') or ''}".strip())
+            ep["notes"].append(f"{kind.replace('_', ' ')}: {ev.message or ''}".strip())
     return [
         Episode(e["rule"], e["channel"], e["severity"], e["message"], e["raised_s"], e["cleared_s"],
                 e["acknowledged_s"], e["acknowledged_by"], tuple(e["actions"]), tuple(e["notes"]))

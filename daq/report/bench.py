@@ -46,10 +46,10 @@ def _profile_text() -> str:
 
 def _build(db: str, n_channels: int, hours: float, seed: int) -> tuple[int, int]:
     from soaklog.benchkit import station_text
-    from soaklog.store import SampleBatch, Store
+    from soaklog.store import SampleBatch, StoreWriter
 
     rng = np.random.default_rng(seed)
-    store = Store.open(db)
+    store = StoreWriter.open(db)
     text = station_text(n_channels, db) + _profile_text()
     t0 = 1_800_000_000_000
     info = store.begin_run(text, now_ms=t0, station="bench", name="1000 h report benchmark")

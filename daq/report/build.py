@@ -43,7 +43,7 @@ from soaklog.report.tables import (
     u_at_test,
     utc,
 )
-from soaklog.store import Store, iso_utc
+from soaklog.store import StoreReader, iso_utc
 
 __all__ = ["TABLE_COLUMNS", "ReportResult", "load_profile_file", "make_report"]
 
@@ -167,8 +167,8 @@ def make_report(
     """
     started = time.perf_counter()
     out = Path(out_dir)
-    with Store.open(db_path, readonly=True) as store:
-        n_ch = len(store.channels(int(store.run(run_id)["id"])))
+    with StoreReader.open(db_path) as store:
+        n_ch = len(store.channels(store.run(run_id).id))
         total = n_ch + 2 + len(PLOTS)
         step = [0]
 
@@ -242,12 +242,12 @@ def make_report(
             "database": str(Path(db_path).resolve()), "data_source": s.source, "resolution_s": s.width_s,
         },
         "run": {
-            "id": rid, "station": run.run.get("station"), "name": run.run.get("name"),
-            "started_utc": run.run.get("started_utc"), "ended_utc": run.run.get("ended_utc"),
+            "id": rid, "station": run.run.station, "name": run.run.name,
+            "started_utc": run.run.started_utc, "ended_utc": run.run.ended_utc,
             "first_reading_utc": iso_utc(run.first_ms), "last_reading_utc": iso_utc(run.last_ms),
             "hours": num(((run.last_ms or 0) - (run.first_ms or 0)) / 3.6e6, 4),
-            "config_sha256": run.run.get("config_sha256"), "config_path": run.run.get("config_path"),
-            "software": run.run.get("software"), "config_problem": run.config_problem or None,
+            "config_sha256": run.run.config_sha256, "config_path": run.run.config_path,
+            "software": run.run.software, "config_problem": run.config_problem or None,
             "channels": len(run.channels), "readings": sum(c.readings for c in run.channels),
         },
         "verdict": _verdict(conf, prof, prof_source),

@@ -22,7 +22,7 @@ from soaklog.config import ConfigProblems, StationConfig, parse_config
 from soaklog.errors import InputError
 from soaklog.report.channels import combine_moments, exact_moments
 from soaklog.report.series import Series, bucketize
-from soaklog.store import ChannelInfo, Store
+from soaklog.store import AlarmRow, ChannelInfo, EventRow, InstrumentRow, RunRow, StoreReader
 
 __all__ = ["RAW_LIMIT", "ROLLUP_WIDTH_S", "ChannelData", "RunData", "load_run", "refine_end", "refine_start"]
 
@@ -57,19 +57,19 @@ class ChannelData:
 class RunData:
     """One run as the report needs it."""
 
-    run: dict[str, Any]
+    run: RunRow
     run_id: int
     config_text: str
     config: StationConfig | None
     config_problem: str
     config_table: dict[str, Any]
     channels: tuple[ChannelData, ...]
-    events: tuple[dict[str, Any], ...]
-    instruments: tuple[dict[str, Any], ...]
+    events: tuple[EventRow, ...]
+    instruments: tuple[InstrumentRow, ...]
     first_ms: int | None
     last_ms: int | None
     series: Series
-    alarm_states: tuple[dict[str, Any], ...] = field(default=())
+    alarm_states: tuple[AlarmRow, ...] = field(default=())
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -106,7 +106,7 @@ def _intervals(cfg: StationConfig | None, chans: list[ChannelInfo]) -> dict[str,
 
 
 def load_run(
-    store: Store, run_id: int | None = None, *, source: str = "auto", progress: Progress | None = None,
+    store: StoreReader, run_id: int | None = None, *, source: str = "auto", progress: Progress | None = None,
 ) -> RunData:
     """Read run ``run_id`` (the newest when None) from ``store``.
 
@@ -121,20 +121,20 @@ def load_run(
     if source not in ("auto", "raw", "rollup"):
         raise InputError(f"source must be auto, raw or rollup, got {source!r}")
     run = store.run(run_id)
-    rid = int(run["id"])
-    text = str(run.get("config") or "")
+    rid = run.id
+    text = run.config or ""
     cfg, problem, table = _parse_stored_config(text)
     chans = store.channels(rid)
-    summary = {s["channel"]: s for s in store.summary(rid)}
+    summary = {s.channel: s for s in store.summary(rid)}
     first_ms, last_ms = store.time_span(rid)
     intervals = _intervals(cfg, chans)
     for c in chans:
         if intervals[c.name] is None and first_ms is not None:
             # no instrument interval in the configuration: the median spacing of the first hour's readings
-            t_ms, _temp, _u = store.raw_window(c.id, first_ms, first_ms + 3_600_000)
+            t_ms = store.raw_window(c.id, first_ms, first_ms + 3_600_000).t_ms
             if t_ms.size > 1:
                 intervals[c.name] = float(np.median(np.diff(t_ms))) / 1000.0 or None
-    total = sum(int(s.get("readings") or 0) for s in summary.values())
+    total = sum(s.readings for s in summary.values())
     use_raw = source == "raw" or (source == "auto" and total <= RAW_LIMIT)
     known = [iv for iv in intervals.values() if iv]
     if use_raw:
@@ -152,64 +152,64 @@ def load_run(
     hi = np.full((n_buckets, k), np.nan, dtype=np.float64)
     data: list[ChannelData] = []
     for j, c in enumerate(chans):
-        s = summary.get(c.name, {})
+        s = summary.get(c.name)
         std: float | None = None
         median_u: float | None = None
         if n_buckets and first_ms is not None and last_ms is not None:
             if use_raw:
-                t_ms, temp, u = store.raw_window(c.id, first_ms, last_ms)
+                w = store.raw_window(c.id, first_ms, last_ms)
+                t_ms, temp, u = w.t_ms, w.temperature_c, w.uncertainty_c
                 mean[:, j], lo[:, j], hi[:, j] = bucketize(t_ms / 1000.0, temp, t0_s, width, n_buckets)
                 _m, std = combine_moments([exact_moments(temp)])
                 ok_u = u[np.isfinite(u)]
                 median_u = float(np.median(ok_u)) if ok_u.size else None
-                del t_ms, temp, u
+                del w, t_ms, temp, u
             else:
                 minutes = int(math.ceil((last_ms - first_ms) / 60_000.0)) + 2
                 tr = store.trend(c.id, first_ms, last_ms, max_points=minutes)
-                t_mid_s = np.asarray(tr["t_ms"], dtype=np.float64) / 1000.0
-                if tr["source"] == "rollup":
+                t_mid_s = np.asarray(tr.t_ms, dtype=np.float64) / 1000.0
+                if tr.source == "rollup":
                     idx = np.floor((t_mid_s - t0_s) / width).astype(np.int64)
                     keep = (idx >= 0) & (idx < n_buckets)
-                    mean[idx[keep], j] = tr["mean_c"][keep]
-                    lo[idx[keep], j] = tr["min_c"][keep]
-                    hi[idx[keep], j] = tr["max_c"][keep]
+                    mean[idx[keep], j] = tr.mean_c[keep]
+                    lo[idx[keep], j] = tr.min_c[keep]
+                    hi[idx[keep], j] = tr.max_c[keep]
                 else:
-                    mean[:, j], lo[:, j], hi[:, j] = bucketize(t_mid_s, tr["mean_c"], t0_s, width, n_buckets)
+                    mean[:, j], lo[:, j], hi[:, j] = bucketize(t_mid_s, tr.mean_c, t0_s, width, n_buckets)
                 # within-minute noise is not in the rollups: the spread of the minute means
                 ok = mean[:, j][np.isfinite(mean[:, j])]
                 std = float(ok.std(ddof=1)) if ok.size > 1 else None
         data.append(ChannelData(
-            info=c, readings=int(s.get("readings") or 0), without_temperature=int(s.get("without_temperature") or 0),
-            min_c=s.get("min_c"), max_c=s.get("max_c"), mean_c=s.get("mean_c"), std_c=std, std_exact=use_raw,
-            max_u_c=s.get("max_u_c"), median_u_c=median_u, interval_s=intervals[c.name],
+            info=c, readings=s.readings if s else 0, without_temperature=s.without_temperature if s else 0,
+            min_c=s.min_c if s else None, max_c=s.max_c if s else None, mean_c=s.mean_c if s else None,
+            std_c=std, std_exact=use_raw, max_u_c=s.max_u_c if s else None, median_u_c=median_u,
+            interval_s=intervals[c.name],
         ))
         if progress is not None:
             progress(j + 1, k, "reading")
     series = Series(t0_s, width, tuple(c.name for c in chans), mean, lo, hi, "raw" if use_raw else "rollup")
-    events: list[dict[str, Any]] = []
+    events: list[EventRow] = []
     after = 0
     while len(events) < MAX_EVENTS:
         chunk = store.events(rid, after_id=after, limit=10_000)
         if not chunk:
             break
         events.extend(chunk)
-        after = int(chunk[-1]["id"])
-    try:
-        alarm_states = tuple(store.alarms(rid))
-    except NotImplementedError:
-        alarm_states = ()
+        after = chunk[-1].id
+    alarm_states = tuple(store.alarms(rid))
     return RunData(
-        run=dict(run), run_id=rid, config_text=text, config=cfg, config_problem=problem, config_table=table,
+        run=run, run_id=rid, config_text=text, config=cfg, config_problem=problem, config_table=table,
         channels=tuple(data), events=tuple(events), instruments=tuple(store.instruments(rid)),
         first_ms=first_ms, last_ms=last_ms, series=series, alarm_states=alarm_states,
     )
 
 
 def refine_start(
-    store: Store, ch_id: int, t0_s: float, t1_s: float, outside: Callable[[np.ndarray], np.ndarray],
+    store: StoreReader, ch_id: int, t0_s: float, t1_s: float, outside: Callable[[np.ndarray], np.ndarray],
 ) -> float | None:
     """Time of the first raw reading in ``[t0_s, t1_s)`` for which ``outside`` is True (None: none)."""
-    t_ms, temp, _u = store.raw_window(ch_id, int(math.floor(t0_s * 1000)), int(math.ceil(t1_s * 1000)) - 1)
+    w = store.raw_window(ch_id, int(math.floor(t0_s * 1000)), int(math.ceil(t1_s * 1000)) - 1)
+    t_ms, temp = w.t_ms, w.temperature_c
     if t_ms.size == 0:
         return None
     with np.errstate(invalid="ignore"):
@@ -218,10 +218,11 @@ def refine_start(
 
 
 def refine_end(
-    store: Store, ch_id: int, t0_s: float, t1_s: float, outside: Callable[[np.ndarray], np.ndarray],
+    store: StoreReader, ch_id: int, t0_s: float, t1_s: float, outside: Callable[[np.ndarray], np.ndarray],
 ) -> float | None:
     """Time of the first reading after the last one in ``[t0_s, t1_s)`` for which ``outside`` is True."""
-    t_ms, temp, _u = store.raw_window(ch_id, int(math.floor(t0_s * 1000)), int(math.ceil(t1_s * 1000)) - 1)
+    w = store.raw_window(ch_id, int(math.floor(t0_s * 1000)), int(math.ceil(t1_s * 1000)) - 1)
+    t_ms, temp = w.t_ms, w.temperature_c
     if t_ms.size == 0:
         return None
     with np.errstate(invalid="ignore"):

@@ -27,7 +27,7 @@ from soaklog.report.performance import (
 from soaklog.profile import Profile
 from soaklog.kinds.profiles.cycle import CycleProfile
 from soaklog.kinds.profiles.soak import SoakProfile
-from soaklog.store import Store, iso_utc
+from soaklog.store import StoreReader, iso_utc
 
 __all__ = [
     "GAP_CAUSES",
@@ -134,7 +134,7 @@ def config_tables(run: RunData, profile: Profile | None) -> dict[str, list[dict[
     wiring: list[dict[str, Any]] = []
     instruments: list[dict[str, Any]] = []
     rules: list[dict[str, Any]] = []
-    identity = {i["name"]: i.get("identity", "") for i in run.instruments}
+    identity = {i.name: i.identity for i in run.instruments}
     if cfg is not None:
         for s in cfg.sensors:
             cal = s.calibration
@@ -268,7 +268,7 @@ def channel_rows(run: RunData, sample: Sequence[str], u_test: Mapping[str, float
     return rows
 
 
-def gap_rows(store: Store, run: RunData) -> list[dict[str, Any]]:
+def gap_rows(store: StoreReader, run: RunData) -> list[dict[str, Any]]:
     s = run.series
     gaps = [g for g in channel_gaps(s)
             # a partly filled first or last bucket is the edge of the run, not a gap
@@ -282,8 +282,8 @@ def gap_rows(store: Store, run: RunData) -> list[dict[str, Any]]:
         if k < MAX_REFINED:
             # from the last valid reading before to the first after, not the bucket edges
             start, end = _gap_edges(store, ids[g.channels[0]], g.start_s, g.end_s, s.width_s)
-        causes = [f"{e['kind'].replace('_', ' ')}: {e['message']}" for e in run.events
-                  if e["kind"] in GAP_CAUSES and start - margin <= e["t_ms"] / 1000.0 <= end + margin]
+        causes = [f"{e.kind.replace('_', ' ')}: {e.message}" for e in run.events
+                  if e.kind in GAP_CAUSES and start - margin <= e.t_ms / 1000.0 <= end + margin]
         if not causes and k < 50:
             causes = _status_causes(store, run, start, min(end, start + 600.0), g.channels)
         rows.append({"start_utc": utc(start), "end_utc": utc(end), "duration_s": num(end - start, 1),
@@ -291,29 +291,29 @@ def gap_rows(store: Store, run: RunData) -> list[dict[str, Any]]:
     return rows
 
 
-def _gap_edges(store: Store, ch_id: int, start_s: float, end_s: float, width_s: float) -> tuple[float, float]:
+def _gap_edges(store: StoreReader, ch_id: int, start_s: float, end_s: float, width_s: float) -> tuple[float, float]:
     """The last valid reading before a gap and the first after it (the bucket edges if none is found)."""
-    t, v, _u = store.raw_window(ch_id, int((start_s - 2 * width_s) * 1000), int(start_s * 1000) - 1)
-    ok = np.isfinite(v)
-    before = float(t[ok][-1]) / 1000.0 if ok.any() else start_s
-    t, v, _u = store.raw_window(ch_id, int(end_s * 1000), int((end_s + 2 * width_s) * 1000))
-    ok = np.isfinite(v)
-    after = float(t[ok][0]) / 1000.0 if ok.any() else end_s
+    w = store.raw_window(ch_id, int((start_s - 2 * width_s) * 1000), int(start_s * 1000) - 1)
+    ok = np.isfinite(w.temperature_c)
+    before = float(w.t_ms[ok][-1]) / 1000.0 if ok.any() else start_s
+    w = store.raw_window(ch_id, int(end_s * 1000), int((end_s + 2 * width_s) * 1000))
+    ok = np.isfinite(w.temperature_c)
+    after = float(w.t_ms[ok][0]) / 1000.0 if ok.any() else end_s
     return before, after
 
 
-def _status_causes(store: Store, run: RunData, t0_s: float, t1_s: float, channels: Sequence[str]) -> list[str]:
+def _status_causes(store: StoreReader, run: RunData, t0_s: float, t1_s: float, channels: Sequence[str]) -> list[str]:
     """Reading statuses in a gap: readings were made, but gave no temperature."""
     counts: dict[str, int] = {}
     wanted = set(channels)
     for chunk in store.iter_readings(run.run_id, from_ms=int(t0_s * 1000), to_ms=int(t1_s * 1000)):
-        for row in chunk:
-            if row[1] in wanted and row[6] != "ok":
-                counts[row[6]] = counts.get(row[6], 0) + 1
+        for channel, status in zip(chunk.channel, chunk.status, strict=True):
+            if channel in wanted and status != "ok":
+                counts[status] = counts.get(status, 0) + 1
     return [f"readings without temperature, status {k} × {v}" for k, v in sorted(counts.items())]
 
 
-def refine_deviations(store: Store, run: RunData, conf: Conformance) -> Conformance:
+def refine_deviations(store: StoreReader, run: RunData, conf: Conformance) -> Conformance:
     """Look the start and end of the first excursions up in the raw readings."""
     ids = {c.info.name: c.info.id for c in run.channels}
     intervals = {c.info.name: c.interval_s for c in run.channels}
@@ -473,14 +473,13 @@ def alarm_tables(run: RunData, episodes: Sequence[Episode]) -> dict[str, list[di
         "acknowledged_by": e.acknowledged_by or None, "actions": "; ".join(e.actions) or None,
         "message": e.message + ("" if e.cleared_s is not None else " (still active at the end of the data)"),
     } for e in episodes]
-    events = [{"t_utc": e["t_utc"], "kind": e["kind"], "channel": e["channel"], "severity": e["severity"],
-               "message": e["message"]}
-              for e in run.events if e["kind"] not in ALARM_KINDS and e["kind"] != "scan_late"][:5000]
+    events = [{"t_utc": e.t_utc, "kind": e.kind, "channel": e.channel, "severity": e.severity, "message": e.message}
+              for e in run.events if e.kind not in ALARM_KINDS and e.kind != "scan_late"][:5000]
     return {"alarms": alarms, "events": events}
 
 
 def rates_summary(rates: AlarmRates, run: RunData) -> dict[str, Any]:
-    late = sum(1 for e in run.events if e["kind"] == "scan_late")
+    late = sum(1 for e in run.events if e.kind == "scan_late")
     return {
         "alarms": rates.alarms, "hours": num(rates.hours, 3), "per_hour": num(rates.per_hour, 3),
         "per_10_min": num(rates.per_10_min, 3), "rating": rates.rate_rating,
@@ -494,5 +493,5 @@ def rates_summary(rates: AlarmRates, run: RunData) -> dict[str, Any]:
             "in the 10 min after an upset under 10 manageable, 10–100 hard to cope with, more excessive. "
             "ANSI/ISA-18.2 (from memory): more than 10 in 10 min is a flood; 3 or more in a minute chattering."
         ),
-        "states_now": [dict(a) for a in run.alarm_states],
+        "states_now": [a.as_json() for a in run.alarm_states],
     }

@@ -1,33 +1,79 @@
-"""The writing half of the store: runs, channels, the batched sample writer, events, health."""
+"""The store's writer: schema and migrations, runs, channels, the batched sample writer, events, alarm states.
+
+The service is the only writer of a station's file; viewers write only an
+operator's request (``add_operator_action``), which the service applies and
+records. The writer reads back what it wrote (it is a ``StoreReader`` too).
+Every ``sqlite3.Error`` leaves as a ``StorageError`` that says what could not
+be written and to which file.
+"""
 
 from __future__ import annotations
 
 import json
 import sqlite3
 from collections.abc import Sequence
+from pathlib import Path
 from typing import Any
 
 import numpy as np
 import numpy.typing as npt
 
 from soaklog.errors import StorageError
+from soaklog.store.core import Transaction, connect, translated
+from soaklog.store.reader import StoreReader
+from soaklog.store.records import BATCH_FIELDS, AlarmRow, EventRow, RunInfo, SampleBatch, config_digest
+from soaklog.store.schema import MIGRATIONS, SCHEMA_VERSION, STATUS_CODES, TEMP_SCALE, U_SCALE, iso_utc, statements
 
-from soaklog.store.records import BATCH_FIELDS, ChannelInfo, RunInfo, SampleBatch, config_digest
-from soaklog.store.reader import translated
-from soaklog.store.schema import TEMP_SCALE, U_SCALE, iso_utc
-
-__all__ = ["WritingMixin"]
+__all__ = ["StoreWriter"]
 
 
-class WritingMixin:
-    """Methods of ``Store`` that change the file (the service is the only writer)."""
+class StoreWriter(StoreReader):
+    """One station's SQLite file, for the service: created and migrated on opening. Not thread-safe."""
 
-    _conn: sqlite3.Connection
-    path: str
+    @classmethod
+    def open(cls, path: str | Path, *, timeout_s: float = 10.0) -> StoreWriter:
+        """Open (creating and migrating when needed) the store at ``path``.
+
+        Raises:
+            StorageError: the file cannot be opened or created, is not a
+                soaklog store, or is newer than this soaklog.
+        """
+        writer = cls(connect(str(path), readonly=False, timeout_s=timeout_s), str(path))
+        try:
+            writer.migrate()
+        except BaseException:
+            writer.close()
+            raise
+        return writer
+
+    def migrate(self) -> int:
+        """Apply the numbered migrations not yet applied; safe to run twice."""
+        try:
+            current = self.schema_version()
+            if current > SCHEMA_VERSION:
+                raise StorageError(
+                    f"{self.path} has schema version {current}, newer than this soaklog "
+                    f"({SCHEMA_VERSION}); upgrade soaklog"
+                )
+            for version, sql in MIGRATIONS:
+                if version <= current:
+                    continue
+                with Transaction(self._conn):
+                    for stmt in statements(sql):
+                        self._conn.execute(stmt)
+                    self._conn.execute(f"PRAGMA user_version = {int(version)}")
+            # every status this soaklog knows, also those added after a file was made
+            self._conn.executemany(
+                "INSERT OR IGNORE INTO statuses (code, name) VALUES (?, ?)",
+                [(c, n) for n, c in STATUS_CODES.items()],
+            )
+        except sqlite3.Error as exc:
+            raise StorageError(f"cannot prepare database {self.path}: {exc}") from exc
+        return self.schema_version()
 
     # ------------------------------------------------------------ runs and channels
 
-    @translated("the runs")
+    @translated("record the run in")
     def begin_run(
         self,
         config_text: str,
@@ -63,11 +109,11 @@ class WritingMixin:
         )
         return RunInfo(int(cur.lastrowid or 0), False, None, digest)
 
-    @translated("the runs")
+    @translated("record the end of the run in")
     def end_run(self, run_id: int, *, now_ms: int) -> None:
         self._conn.execute("UPDATE runs SET ended_utc = ? WHERE id = ?", (iso_utc(now_ms), run_id))
 
-    @translated("the channels")
+    @translated("record the channels in")
     def ensure_channels(
         self, run_id: int, channels: Sequence[tuple[str, str, str, str]]
     ) -> dict[str, int]:
@@ -81,33 +127,6 @@ class WritingMixin:
             )
         rows = self._conn.execute("SELECT name, id FROM channels WHERE run_id = ?", (run_id,)).fetchall()
         return {str(n): int(i) for n, i in rows}
-
-    @translated("the runs")
-    def runs(self) -> list[dict[str, Any]]:
-        return list(self.db.query(
-            "SELECT id, started_utc, ended_utc, station, name, config_sha256, config_path FROM runs ORDER BY id"
-        ))
-
-    @translated("the run")
-    def run(self, run_id: int | None = None) -> dict[str, Any]:
-        """One run's row (the newest when ``run_id`` is None)."""
-        if run_id is None:
-            rows = list(self.db.query("SELECT * FROM runs ORDER BY id DESC LIMIT 1"))
-        else:
-            rows = list(self.db.query("SELECT * FROM runs WHERE id = ?", [run_id]))
-        if not rows:
-            raise StorageError(
-                f"no run {run_id} in {self.path}" if run_id is not None else f"no run yet in {self.path}"
-            )
-        return rows[0]
-
-    @translated("the channels")
-    def channels(self, run_id: int) -> list[ChannelInfo]:
-        rows = self._conn.execute(
-            "SELECT id, run_id, name, label, instrument, raw_unit FROM channels WHERE run_id = ? ORDER BY id",
-            (run_id,),
-        ).fetchall()
-        return [ChannelInfo(int(r[0]), int(r[1]), r[2], r[3], r[4], r[5]) for r in rows]
 
     # ------------------------------------------------------------ writing
 
@@ -242,11 +261,56 @@ class WritingMixin:
         except sqlite3.Error as exc:
             raise StorageError(f"cannot record the outcome of operator action {action_id} in {self.path}: {exc}") from exc
 
+    # ------------------------------------------------------------ alarms
+
+    def save_alarm_states(self, run_id: int, rows: Sequence[AlarmRow], *, now_ms: int) -> None:
+        """Insert or update the given alarm points' states, in one transaction."""
+        if not rows:
+            return
+        params = [
+            (run_id, r.id, r.rule, r.kind, r.source, r.ch, r.state, r.severity, int(r.condition), int(r.acked),
+             r.since_ms, r.shelved_until_ms, r.value, r.message, int(now_ms))
+            for r in rows
+        ]
+        try:
+            with Transaction(self._conn):
+                self._conn.executemany(
+                    "INSERT INTO alarm_states (run_id, id, rule, kind, source, ch, state, severity, condition, acked, "
+                    "since_ms, shelved_until_ms, value, message, updated_ms) "
+                    "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT (run_id, id) DO UPDATE SET "
+                    "rule = excluded.rule, kind = excluded.kind, source = excluded.source, ch = excluded.ch, "
+                    "state = excluded.state, severity = excluded.severity, condition = excluded.condition, "
+                    "acked = excluded.acked, since_ms = excluded.since_ms, shelved_until_ms = excluded.shelved_until_ms, "
+                    "value = excluded.value, message = excluded.message, updated_ms = excluded.updated_ms",
+                    params,
+                )
+        except sqlite3.Error as exc:
+            raise StorageError(f"cannot record {len(rows)} alarm states in {self.path}: {exc}") from exc
+
+    def add_events(self, run_id: int, events: Sequence[EventRow]) -> list[int]:
+        """Record several events in one transaction; their ids, in order."""
+        if not events:
+            return []
+        ids: list[int] = []
+        try:
+            with Transaction(self._conn):
+                for e in events:
+                    cur = self._conn.execute(
+                        "INSERT INTO events (run_id, t_ms, kind, ch, severity, message, data) VALUES (?, ?, ?, ?, ?, ?, ?)",
+                        (run_id, int(e.t_ms), e.kind, e.ch, e.severity, e.message,
+                         json.dumps(dict(e.data or {}), sort_keys=True, default=str)),
+                    )
+                    ids.append(int(cur.lastrowid or 0))
+        except sqlite3.Error as exc:
+            raise StorageError(f"cannot record {len(events)} events in {self.path}: {exc}") from exc
+        return ids
+
     def checkpoint(self) -> None:
+        """Copy the WAL back into the file when no reader is in the way (PASSIVE never waits)."""
         try:
             self._conn.execute("PRAGMA wal_checkpoint(PASSIVE)").fetchall()
         except sqlite3.Error:
-            pass
+            pass  # an optimisation only: the next checkpoint catches up
 
 
 

@@ -10,7 +10,7 @@ from soaklog.clock import AcceleratedClock
 from soaklog.config import parse_config
 from soaklog.demo import build_demo_config
 from soaklog.service import Service
-from soaklog.store import Store
+from soaklog.store import AlarmRow, EventRow, StoreReader
 from soaklog.simulators.lab import Lab
 
 EPOCH_UTC_S = 1_800_000_000.0
@@ -45,14 +45,14 @@ class AlarmLab:
         self.service = Service(self.config, clock=self.clock, new_run=new_run)
         self.run_id = self.service.start()
 
-    def events(self, kind: str | None = None) -> list[dict]:
-        with Store.open(self.config.database, readonly=True) as store:
+    def events(self, kind: str | None = None) -> list[EventRow]:
+        with StoreReader.open(self.config.database) as store:
             ev = store.events(self.run_id)
-        return [e for e in ev if kind is None or e["kind"] == kind]
+        return [e for e in ev if kind is None or e.kind == kind]
 
-    def alarms(self) -> dict[str, dict]:
-        with Store.open(self.config.database, readonly=True) as store:
-            return {a["id"]: a for a in store.alarms(self.run_id)}
+    def alarms(self) -> dict[str, AlarmRow]:
+        with StoreReader.open(self.config.database) as store:
+            return {a.id: a for a in store.alarms(self.run_id)}
 
     def stop(self) -> None:
         if self.service is not None:

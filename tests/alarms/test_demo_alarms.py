@@ -7,7 +7,7 @@ import threading
 
 import soaklog.demo as demo
 from soaklog.demo import DEFAULT_SPEED, run_demo
-from soaklog.store import Store
+from soaklog.store import StoreReader
 
 
 def test_the_demo_runaway_trips_interlocks_and_recovers(tmp_path):
@@ -35,11 +35,11 @@ def test_the_demo_runaway_trips_interlocks_and_recovers(tmp_path):
     assert text.count("not a safety device") >= 2 and "IEC 61010-2-010" in text
     assert "qualified people decide" in text
     assert "soaklog ack --all --db" in text
-    with Store.open(summary["database"], readonly=True) as store:
-        trips = [a for a in store.alarms(summary["run_id"]) if a["rule"] == demo.TRIP_RULE]
+    with StoreReader.open(summary["database"]) as store:
+        trips = [a for a in store.alarms(summary["run_id"]) if a.rule == demo.TRIP_RULE]
     # waiting for a person: latched once its channel is back, or still unacknowledged where the other channel's
     # air had not yet fallen below the trip's deadband when the demo stopped (the machine's load decides which)
-    assert trips and all(a["state"] in ("latched", "unacknowledged") for a in trips)
+    assert trips and all(a.state in ("latched", "unacknowledged") for a in trips)
 
 
 def test_the_demo_without_a_runaway_raises_no_alarm(tmp_path):

@@ -8,7 +8,7 @@ import sys
 
 from alarmlab import EPOCH_UTC_S, wait_for
 
-from soaklog.store import Store
+from soaklog.store import StoreReader, StoreWriter
 
 TRIP = "air-over-temperature-trip"
 HIGH = "air-over-temperature"
@@ -30,44 +30,44 @@ def test_overshoot_trips_the_interlock_the_chamber_cools_and_the_acknowledgement
     world = run.lab.world
     assert world.heater_supply_enabled is False  # the SCPI command really switched the simulated supply off
     # the chamber cools: both alarms return (the trip latches, the high one waits for its acknowledgement)
-    wait_for(lambda: {a["state"] for i, a in run.alarms().items() if i.startswith(HIGH + ":")}
+    wait_for(lambda: {a.state for i, a in run.alarms().items() if i.startswith(HIGH + ":")}
              == {"returned_unacknowledged"}, 90, "the high alarms to return")
     alarms = run.alarms()
     # the first channel over 140 °C trips; the other may stay just under it once the heat is cut
-    assert alarms[f"{TRIP}:air-supply"]["state"] == "latched" or alarms[f"{TRIP}:air-return"]["state"] == "latched"
-    assert {alarms[f"{TRIP}:{c}"]["state"] for c in ("air-supply", "air-return")} <= {"latched", "normal"}
+    assert alarms[f"{TRIP}:air-supply"].state == "latched" or alarms[f"{TRIP}:air-return"].state == "latched"
+    assert {alarms[f"{TRIP}:{c}"].state for c in ("air-supply", "air-return")} <= {"latched", "normal"}
     # the demo's own cut-out (155 °C) never had to act: the interlock got there first
     assert world.status()["cutout_tripped"] is False
     assert world.status()["air_c"] < 128.0
 
     events = run.events()
-    kinds = [(e["kind"], e["data"].get("alarm", "")) for e in events]
+    kinds = [(e.kind, e.data.get("alarm", "")) for e in events]
     raised = next(i for i, (k, a) in enumerate(kinds) if k == "alarm_raised" and a.startswith(TRIP))
-    done = next(i for i, e in enumerate(events) if e["kind"] == "action_done" and "OUTPut OFF" in e["message"])
+    done = next(i for i, e in enumerate(events) if e.kind == "action_done" and "OUTPut OFF" in e.message)
     cleared = kinds.index(("alarm_cleared", f"{HIGH}:air-supply"))
     assert raised < done < cleared
-    assert events[raised]["severity"] == "critical" and events[raised]["channel"] in ("air-supply", "air-return")
-    assert events[done]["data"]["latency_s"] >= 0.0
+    assert events[raised].severity == "critical" and events[raised].channel in ("air-supply", "air-return")
+    assert events[done].data["latency_s"] >= 0.0
 
     # acknowledge the high alarm through the operator actions table, as the dashboard does
-    with Store.open(run.config.database) as store:
+    with StoreWriter.open(run.config.database) as store:
         req = store.add_operator_action("acknowledge", target=HIGH, note="door seal checked", actor="ana",
                                         now_ms=int(EPOCH_UTC_S * 1000))
     wait_for(lambda: _applied(run, req), 30, "the acknowledgement to be applied")
-    with Store.open(run.config.database, readonly=True) as store:
-        row = next(r for r in store.operator_actions() if r["id"] == req)
-    assert row["outcome"].startswith("applied: acknowledged 2")
-    acks = [e for e in run.events("alarm_acknowledged") if e["data"]["rule"] == HIGH]
-    assert len(acks) == 2 and all(e["data"]["note"] == "door seal checked" and e["data"]["actor"] == "ana" for e in acks)
-    assert {run.alarms()[f"{HIGH}:{c}"]["state"] for c in ("air-supply", "air-return")} == {"normal"}
+    with StoreReader.open(run.config.database) as store:
+        row = next(r for r in store.operator_actions() if r.id == req)
+    assert row.outcome.startswith("applied: acknowledged 2")
+    acks = [e for e in run.events("alarm_acknowledged") if e.data["rule"] == HIGH]
+    assert len(acks) == 2 and all(e.data["note"] == "door seal checked" and e.data["actor"] == "ana" for e in acks)
+    assert {run.alarms()[f"{HIGH}:{c}"].state for c in ("air-supply", "air-return")} == {"normal"}
 
     # reset the latched trip with `soaklog ack`, as a user does
     p = ack_cli("--all", "--db", run.config.database, "--note", "controller repaired", "--actor", "ben")
     assert p.returncode == 0, p.stderr
     assert "applied: acknowledged" in p.stdout
-    assert {run.alarms()[f"{TRIP}:{c}"]["state"] for c in ("air-supply", "air-return")} == {"normal"}
-    tripped = events[raised]["channel"]
-    with Store.open(run.config.database, readonly=True) as store:
+    assert {run.alarms()[f"{TRIP}:{c}"].state for c in ("air-supply", "air-return")} == {"normal"}
+    tripped = events[raised].channel
+    with StoreReader.open(run.config.database) as store:
         story = store.connection.execute(
             "SELECT kind, channel, message FROM events_v WHERE run_id = ? AND (kind LIKE 'alarm_%' OR kind LIKE 'action_%')",
             (run.run_id,)).fetchall()
@@ -81,25 +81,25 @@ def test_overshoot_trips_the_interlock_the_chamber_cools_and_the_acknowledgement
 
 
 def _applied(run, req: int) -> bool:
-    with Store.open(run.config.database, readonly=True) as store:
-        return any(r["id"] == req and r["applied_ms"] is not None for r in store.operator_actions())
+    with StoreReader.open(run.config.database) as store:
+        return any(r.id == req and r.applied_ms is not None for r in store.operator_actions())
 
 
 def test_a_restart_keeps_a_latched_trip_and_refuses_stale_requests(alarm_lab):
     run = alarm_lab(speed=120.0)
     runaway_until_tripped(run)
     run.lab.world.set_runaway(False)
-    wait_for(lambda: "latched" in {run.alarms()[f"{TRIP}:{c}"]["state"] for c in ("air-supply", "air-return")}, 90,
+    wait_for(lambda: "latched" in {run.alarms()[f"{TRIP}:{c}"].state for c in ("air-supply", "air-return")}, 90,
              "the trip to latch")
-    latched = next(i for i, a in run.alarms().items() if a["state"] == "latched")
+    latched = next(i for i, a in run.alarms().items() if a.state == "latched")
     run.service.stop()
-    with Store.open(run.config.database) as store:
+    with StoreWriter.open(run.config.database) as store:
         old = store.add_operator_action("acknowledge", target="*", now_ms=int(EPOCH_UTC_S * 1000) - 3_600_000)
     run.start_service()  # the same configuration: the run continues
-    assert run.alarms()[latched]["state"] == "latched"
-    with Store.open(run.config.database, readonly=True) as store:
-        row = next(r for r in store.operator_actions() if r["id"] == old)
-    assert row["outcome"].startswith("not applied: queued at")
+    assert run.alarms()[latched].state == "latched"
+    with StoreReader.open(run.config.database) as store:
+        row = next(r for r in store.operator_actions() if r.id == old)
+    assert row.outcome.startswith("not applied: queued at")
     # no logger running on the file: `soaklog ack` says so and fails
     run.service.stop()
     p = ack_cli(latched, "--db", run.config.database, "--wait", "1")
@@ -111,32 +111,32 @@ def test_a_lost_instrument_raises_the_builtin_alarm_and_stale_channels(alarm_lab
     svc = run.service
     wait_for(lambda: svc.stats.per_instrument.get("meter", 0) >= 10, 30, "meter readings")
     run.lab.meter.fault_mute()
-    wait_for(lambda: run.alarms().get("instrument-lost:meter", {}).get("state") == "unacknowledged", 60,
+    wait_for(lambda: getattr(run.alarms().get("instrument-lost:meter"), "state", None) == "unacknowledged", 60,
              "the instrument-lost alarm")
     # five minutes of chamber time without a good reading: the meter's channels are stale
-    wait_for(lambda: run.alarms()["no-data:air-supply"]["state"] == "unacknowledged", 60, "stale channels")
-    assert run.alarms()["no-data:door-corner"]["state"] == "normal"  # the board keeps reading
+    wait_for(lambda: run.alarms()["no-data:air-supply"].state == "unacknowledged", 60, "stale channels")
+    assert run.alarms()["no-data:door-corner"].state == "normal"  # the board keeps reading
     run.lab.meter.clear_faults()
-    wait_for(lambda: run.alarms()["instrument-lost:meter"]["state"] == "returned_unacknowledged", 60,
+    wait_for(lambda: run.alarms()["instrument-lost:meter"].state == "returned_unacknowledged", 60,
              "the meter back")
 
 
 def test_a_shelved_alarm_comes_back_at_its_expiry(alarm_lab):
     run = alarm_lab(speed=120.0)
     # shelve for ten minutes of the requester's time; the service measures them on its own clock
-    with Store.open(run.config.database) as store:
+    with StoreWriter.open(run.config.database) as store:
         req = store.add_operator_action("shelve", target=HIGH, note="door work", actor="ana",
                                         now_ms=1_000, until_ms=1_000 + 600_000)
     wait_for(lambda: _applied(run, req), 30, "the shelf")
-    assert {a["state"] for i, a in run.alarms().items() if i.startswith(HIGH + ":")} == {"shelved"}
-    assert all(a["shelved_until_utc"] for i, a in run.alarms().items() if i.startswith(HIGH + ":"))
+    assert {a.state for i, a in run.alarms().items() if i.startswith(HIGH + ":")} == {"shelved"}
+    assert all(a.shelved_until_utc for i, a in run.alarms().items() if i.startswith(HIGH + ":"))
     wait_for(lambda: len(run.events("alarm_unshelved")) == 2, 60, "the shelf to expire")
-    assert {a["state"] for i, a in run.alarms().items() if i.startswith(HIGH + ":")} == {"normal"}
+    assert {a.state for i, a in run.alarms().items() if i.startswith(HIGH + ":")} == {"normal"}
     # a high-high alarm may not be shelved: refused, recorded, nothing changed
-    with Store.open(run.config.database) as store:
+    with StoreWriter.open(run.config.database) as store:
         req = store.add_operator_action("shelve", target=TRIP, now_ms=1_000, until_ms=61_000)
     wait_for(lambda: _applied(run, req), 30, "the refusal")
-    with Store.open(run.config.database, readonly=True) as store:
-        row = next(r for r in store.operator_actions() if r["id"] == req)
-    assert row["outcome"].startswith("not applied") and "may not be shelved" in row["outcome"]
-    assert any(e["kind"] == "operator_request" for e in run.events())
+    with StoreReader.open(run.config.database) as store:
+        row = next(r for r in store.operator_actions() if r.id == req)
+    assert row.outcome.startswith("not applied") and "may not be shelved" in row.outcome
+    assert any(e.kind == "operator_request" for e in run.events())

@@ -8,14 +8,13 @@ from dataclasses import replace
 import pytest
 
 from soaklog.errors import StorageError
-from soaklog.store import Store
-from soaklog.store.alarms import AlarmRow, EventRow
+from soaklog.store import AlarmRow, EventRow, StoreReader, StoreWriter
 
 CONTRACT = {"id", "rule", "channel", "state", "severity", "message", "since_utc", "acked", "shelved_until_utc"}
 
 
 def _store(tmp_path):
-    s = Store.open(tmp_path / "a.db")
+    s = StoreWriter.open(tmp_path / "a.db")
     run = s.begin_run("config", now_ms=0).run_id
     ids = s.ensure_channels(run, [("air", "Air", "meter", "ohm"), ("shelf", "Shelf", "meter", "ohm")])
     return s, run, ids
@@ -32,12 +31,12 @@ def test_a_schema_3_file_gets_the_alarm_table_and_reads_no_alarms(tmp_path):
         conn.execute(f"PRAGMA user_version = {version}")
     conn.execute("INSERT INTO runs (id, started_utc, config, config_sha256) VALUES (1, 'x', 'c', 'h')")
     conn.close()
-    with Store.open(p, readonly=True) as s:
+    with StoreReader.open(p) as s:
         assert s.alarms(1) == []  # an old file read as it is: no alarm table yet
-    with Store.open(p) as s:
+    with StoreWriter.open(p) as s:
         assert s.schema_version() == 4
-        assert s.alarms(1) == [] and s.alarm_states(1) == []
-    with Store.open(p) as s:  # migrations are safe to run twice
+        assert s.alarms(1) == []
+    with StoreWriter.open(p) as s:  # migrations are safe to run twice
         assert s.schema_version() == 4
 
 
@@ -51,19 +50,20 @@ def test_alarm_states_round_trip_and_the_alarms_contract(tmp_path):
                  1_800_000_000_000, 1_800_000_600_000, None, "instrument meter lost"),
     ]
     s.save_alarm_states(run, rows, now_ms=1)
-    assert s.alarm_states(run) == rows
     every = s.alarms(run)
-    assert [a["id"] for a in every] == ["hot:air", "hot:shelf", "gone:meter"]
-    assert all(CONTRACT <= set(a) for a in every)
-    hot = every[0]
+    # read back as saved, with the channel's name filled in
+    assert [replace(a, channel=None) for a in every] == rows
+    assert [a.id for a in every] == ["hot:air", "hot:shelf", "gone:meter"]
+    assert all(CONTRACT <= set(a.as_json()) for a in every)
+    hot = every[0].as_json()
     assert (hot["channel"], hot["state"], hot["acked"], hot["since_utc"]) == ("air", "unacknowledged", False,
                                                                              "2027-01-15T08:00:00.000Z")
     # 1 800 000 000 s after the Unix epoch is 2027-01-15T08:00:00Z (date arithmetic, 20833 days + 8 h)
-    assert every[2]["channel"] is None and every[2]["shelved_until_utc"] == "2027-01-15T08:10:00.000Z"
-    assert [a["id"] for a in s.alarms(run, active_only=True)] == ["hot:air", "gone:meter"]
+    assert every[2].channel is None and every[2].shelved_until_utc == "2027-01-15T08:10:00.000Z"
+    assert [a.id for a in s.alarms(run, active_only=True)] == ["hot:air", "gone:meter"]
     # an update replaces the row
     s.save_alarm_states(run, [replace(rows[0], state="acknowledged", acked=True)], now_ms=2)
-    assert s.alarms(run)[0]["state"] == "acknowledged"
+    assert s.alarms(run)[0].state == "acknowledged"
     s.close()
 
 
@@ -79,7 +79,8 @@ def test_alarm_events_are_in_events_v_with_their_channel(tmp_path):
     assert rows == [("alarm_raised", "air", "critical", "air 131 °C above 130 °C"),
                     ("action_done", "air", "info", "heater supply off for hot:air: done"),
                     ("alarm_note", None, "info", "note: door opened")]
-    assert s.events(run)[0]["data"] == {"alarm": "hot:air"}
+    first = s.events(run)[0]
+    assert (first.data, first.channel, first.t_utc) == ({"alarm": "hot:air"}, "air", "1970-01-01T00:00:01.000Z")
     s.close()
 
 

@@ -13,8 +13,8 @@ import numpy as np
 from rich.console import Console
 from textual.app import App
 
-from soaklog.store import SampleBatch, Store, status_code
-from soaklog.store.alarms import AlarmRow as StoredAlarm
+from soaklog.store import SampleBatch, StoreWriter, status_code
+from soaklog.store import AlarmRow as StoredAlarm
 
 #: 2027-01-15T08:00:00Z, the fixture run's start
 START_MS = 1_800_000_000_000
@@ -116,7 +116,7 @@ def air_c(t_ms: np.ndarray) -> np.ndarray:
 
 def write_fixture(path: Path) -> dict[str, int]:
     """The fixture store: 3 h of a 4-channel run with one open sensor and one stale one."""
-    store = Store.open(path)
+    store = StoreWriter.open(path)
     info = store.begin_run(FIXTURE_CONFIG, now_ms=START_MS, station="fixture-bench", name="fixture cycling run",
                            software="test", config_path="fixture.toml")
     ids = store.ensure_channels(info.run_id, [(n, lab, inst, "ohm") for n, lab, inst in CHANNELS])

@@ -24,7 +24,7 @@ from soaklog.dashboard.widgets import (
     RequestLine,
     TrendPanel,
 )
-from soaklog.store import Store
+from soaklog.store import StoreReader, StoreWriter
 
 
 def _app(db, **kw):
@@ -103,8 +103,8 @@ async def test_unit_key_changes_the_display_only(fixture_db, presses, temp, u):
         await pilot.pause()
         board = app.screen.query_one(ChannelBoard)
         assert (_cell(board, "air", "temp"), _cell(board, "air", "u")) == (temp, u)
-    with Store.open(fixture_db, readonly=True) as st:
-        assert st.latest(1)[0]["temperature_c"] == pytest.approx(113.0)  # 23 + 0.5 K/min * 180 min
+    with StoreReader.open(fixture_db) as st:
+        assert st.latest(1)[0].temperature_c == pytest.approx(113.0)  # 23 + 0.5 K/min * 180 min
 
 
 async def test_window_key_changes_the_plotted_range(fixture_db):
@@ -147,14 +147,14 @@ async def test_acknowledge_key_queues_an_operator_request_in_the_store(fixture_d
         await pilot.press("k")
 
         def queued():
-            with Store.open(fixture_db, readonly=True) as st:
+            with StoreReader.open(fixture_db) as st:
                 return st.operator_actions()
 
         await wait_until(pilot, lambda: len(queued()) == 1, what="the request in the store")
         (req,) = queued()
-        assert (req["kind"], req["target"], req["actor"], req["t_ms"]) == (
+        assert (req.kind, req.target, req.actor, req.t_ms) == (
             "acknowledge", "air-high:air", "tester@bench (dashboard)", NOW_MS)
-        assert req["applied_ms"] is None  # no logger runs on this file: nobody applied it
+        assert req.applied_ms is None  # no logger runs on this file: nobody applied it
         line = app.screen.query_one(RequestLine)
         await wait_until(pilot, lambda: "waiting for the logger" in str(line.render()), what="the request line")
         # an alarm already acknowledged is not asked again
@@ -175,14 +175,14 @@ async def test_shelve_and_note_from_the_keyboard(fixture_db):
         await pilot.press(*"cable ok", "enter")
 
         def queued():
-            with Store.open(fixture_db, readonly=True) as st:
+            with StoreReader.open(fixture_db) as st:
                 return st.operator_actions()
 
         await wait_until(pilot, lambda: len(queued()) == 2, what="two requests")
         shelve, note = queued()
-        assert (shelve["kind"], shelve["target"], shelve["until_ms"] - shelve["t_ms"]) == (
+        assert (shelve.kind, shelve.target, shelve.until_ms - shelve.t_ms) == (
             "shelve", "door-fault:door", 3_600_000)
-        assert (note["kind"], note["target"], note["note"]) == ("note", "door-fault:door", "cable ok")
+        assert (note.kind, note.target, note.note) == ("note", "door-fault:door", "cable ok")
 
 
 async def test_acknowledge_all_asks_for_each_alarm_that_waits(fixture_db):
@@ -192,8 +192,8 @@ async def test_acknowledge_all_asks_for_each_alarm_that_waits(fixture_db):
         await pilot.press("a", "K")
 
         def queued():
-            with Store.open(fixture_db, readonly=True) as st:
-                return [(a["kind"], a["target"]) for a in st.operator_actions()]
+            with StoreReader.open(fixture_db) as st:
+                return [(a.kind, a.target) for a in st.operator_actions()]
 
         await wait_until(pilot, lambda: len(queued()) >= 1, what="the requests")
         await pilot.pause(0.2)
@@ -247,7 +247,7 @@ async def test_a_large_terminal_shows_more(fixture_db):
 
 
 async def test_a_finished_run_opens_for_review(fixture_db):
-    with Store.open(fixture_db) as w:
+    with StoreWriter.open(fixture_db) as w:
         w.end_run(1, now_ms=NOW_MS + 1000)
     app = _app(fixture_db, clock=frozen_clock(NOW_MS + 86_400_000 * 40))
     async with app.run_test(size=(80, 24)) as pilot:
@@ -257,7 +257,7 @@ async def test_a_finished_run_opens_for_review(fixture_db):
         # no logger will apply a request on an ended run (it refuses those queued while none ran)
         await pilot.press("a", "k")
         await pilot.pause(0.3)
-    with Store.open(fixture_db, readonly=True) as st:
+    with StoreReader.open(fixture_db) as st:
         assert st.operator_actions() == []
 
 

@@ -9,16 +9,16 @@ from dashfixtures import wait_for, wait_until
 
 from soaklog.dashboard.app import DashboardApp
 from soaklog.dashboard.widgets import AlarmBoard, ChannelBoard, RequestLine
-from soaklog.store import Store
+from soaklog.store import StoreReader
 
 
 def _all_channels_read(db: str, n: int) -> bool:
     try:
-        with Store.open(db, readonly=True) as st:
-            rows = st.latest(st.run()["id"])
+        with StoreReader.open(db) as st:
+            rows = st.latest(st.run().id)
     except Exception:  # noqa: BLE001 - the file may not be there yet
         return False
-    return len(rows) == n and all(r["t_ms"] is not None for r in rows)
+    return len(rows) == n and all(r.t_ms is not None for r in rows)
 
 
 def _newest_from_view(db: str, run_id: int) -> dict[str, tuple]:
@@ -77,31 +77,31 @@ async def test_an_alarm_acknowledged_with_keys_is_applied_by_the_logger(lab_run)
     run.lab.world.set_fault("door-corner", "open")
 
     def door_alarm() -> dict | None:
-        with Store.open(run.database, readonly=True) as st:
-            rows = [a for a in st.alarms(run.run_id) if a["channel"] == "door-corner" and a["state"] != "normal"]
+        with StoreReader.open(run.database) as st:
+            rows = [a for a in st.alarms(run.run_id) if a.channel == "door-corner" and a.state != "normal"]
         return rows[0] if rows else None
 
     wait_for(lambda: door_alarm() is not None, 60, "the sensor-fault alarm on door-corner")
     alarm = door_alarm()
-    assert alarm["state"] == "unacknowledged"
+    assert alarm.state == "unacknowledged"
     app = DashboardApp(run.database, refresh_s=0.2, actor="tester (dashboard)")
     async with app.run_test(size=(100, 30)) as pilot:
         await wait_until(pilot, lambda: app.reads >= 2, what="the first reads")
         await pilot.press("a")
         board = app.screen.query_one(AlarmBoard)
-        await wait_until(pilot, lambda: any(a.id == alarm["id"] for a in board.alarms), what="the alarm listed")
-        while board.selected_alarm is not None and board.selected_alarm.id != alarm["id"]:
+        await wait_until(pilot, lambda: any(a.id == alarm.id for a in board.alarms), what="the alarm listed")
+        while board.selected_alarm is not None and board.selected_alarm.id != alarm.id:
             await pilot.press("down")
         await pilot.press("k")
         line = app.screen.query_one(RequestLine)
         await wait_until(pilot, lambda: "applied" in str(line.render()), timeout_s=30,
                          what="the logger's outcome on screen")
-    with Store.open(run.database, readonly=True) as st:
+    with StoreReader.open(run.database) as st:
         (req,) = st.operator_actions()
-        state = next(a for a in st.alarms(run.run_id) if a["id"] == alarm["id"])
-        kinds = [e["kind"] for e in st.events(run.run_id)]
-    assert (req["kind"], req["target"], req["actor"]) == ("acknowledge", alarm["id"], "tester (dashboard)")
-    assert req["outcome"].startswith("applied")
+        state = next(a for a in st.alarms(run.run_id) if a.id == alarm.id)
+        kinds = [e.kind for e in st.events(run.run_id)]
+    assert (req.kind, req.target, req.actor) == ("acknowledge", alarm.id, "tester (dashboard)")
+    assert req.outcome.startswith("applied")
     # ANSI/ISA-18.2: acknowledging an active alarm leaves it active, acknowledged
-    assert state["acked"] is True and state["state"] in ("acknowledged", "normal")
+    assert state.acked is True and state.state in ("acknowledged", "normal")
     assert "alarm_acknowledged" in kinds

@@ -19,7 +19,7 @@ from dashfixtures import (
 from soaklog.dashboard.records import TrendRequest
 from soaklog.dashboard.source import StoreSource, submit_operator_action
 from soaklog.errors import StorageError
-from soaklog.store import SampleBatch, Store
+from soaklog.store import SampleBatch, StoreWriter
 
 
 def _view_latest(db, run_id=1):
@@ -70,7 +70,7 @@ def test_reads_only_new_events_and_changed_requests(fixture_db):
     first = src.poll()
     assert [e.kind for e in first.events] == ["service_start", "sensor_fault"]
     assert src.poll().events == ()
-    with Store.open(fixture_db) as w:
+    with StoreWriter.open(fixture_db) as w:
         w.add_event(1, NOW_MS, "gap", "logger restarted after a gap of 3.0 s", severity="warning")
     assert [e.message for e in src.poll().events] == ["logger restarted after a gap of 3.0 s"]
     rid = submit_operator_action(str(fixture_db), "acknowledge", target="air-high:air", now_ms=NOW_MS, actor="t")
@@ -78,7 +78,7 @@ def test_reads_only_new_events_and_changed_requests(fixture_db):
     assert [(a.id, a.kind, a.applied_ms) for a in pending] == [(rid, "acknowledge", None)]
     # still pending: read again, so that its outcome is seen when it comes
     assert [a.id for a in src.poll().actions] == [rid]
-    with Store.open(fixture_db) as w:
+    with StoreWriter.open(fixture_db) as w:
         w.mark_operator_action(rid, now_ms=NOW_MS + 500, outcome="applied: acknowledged air-high:air")
     done = src.poll().actions
     assert [(a.id, a.outcome) for a in done] == [(rid, "applied: acknowledged air-high:air")]
@@ -91,7 +91,7 @@ def test_no_read_transaction_is_left_open_so_the_writer_can_checkpoint(fixture_d
     src.poll(TrendRequest(("air", "shelf"), "run"))
     other = StoreSource(fixture_db, clock=frozen_clock())  # several dashboards on one file
     other.poll(TrendRequest(("air",), "10min"))
-    with Store.open(fixture_db) as w:
+    with StoreWriter.open(fixture_db) as w:
         w.write(1, SampleBatch(np.array([1], np.int64), np.array([NOW_MS + 1000], np.int64), np.array([130.0]),
                                np.array([23.0]), np.array([0.1]), np.zeros(1, np.int64), np.zeros(1, np.int64)))
         # SQLite, "PRAGMA wal_checkpoint": the first column is 1 when a reader kept the checkpoint from finishing
@@ -103,7 +103,7 @@ def test_no_read_transaction_is_left_open_so_the_writer_can_checkpoint(fixture_d
 
 
 def test_a_finished_run_is_shown_as_at_its_end(fixture_db):
-    with Store.open(fixture_db) as w:
+    with StoreWriter.open(fixture_db) as w:
         w.end_run(1, now_ms=NOW_MS + 5000)
     # long after the run, on another machine: ages count from the run's end, not from today
     snap = StoreSource(fixture_db, clock=frozen_clock(NOW_MS + 30 * 86_400_000)).poll()
@@ -140,7 +140,7 @@ def test_a_short_window_read_in_steps_equals_one_fresh_read(fixture_db):
     src = StoreSource(fixture_db, clock=lambda: clock_ms[0] / 1000.0)
     req = TrendRequest(("air",), "10min")
     src.poll(req)
-    with Store.open(fixture_db) as w:
+    with StoreWriter.open(fixture_db) as w:
         for k in range(1, 7):
             t = NOW_MS + k * 10_000
             w.write(1, SampleBatch(np.array([1], np.int64), np.array([t], np.int64), np.array([140.0]),
@@ -157,7 +157,7 @@ def test_a_short_window_read_in_steps_equals_one_fresh_read(fixture_db):
 def test_the_newest_run_is_followed(fixture_db):
     src = StoreSource(fixture_db, clock=frozen_clock(), run_reread_s=0.0)
     assert src.poll().run.run_id == 1
-    with Store.open(fixture_db) as w:
+    with StoreWriter.open(fixture_db) as w:
         info = w.begin_run("[station]\nname = 'second'\n", now_ms=NOW_MS + 1000, station="second", new_run=True)
     snap = src.poll()
     assert snap.run.run_id == info.run_id and snap.reset

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from soaklog.store import Store
+from soaklog.store import StoreReader
 
 pytestmark = pytest.mark.skipif(shutil.which("tmux") is None, reason="tmux is not installed")
 
@@ -70,10 +70,10 @@ def test_soaklog_dash_in_a_real_terminal(fixture_db, tmp_path):
         deadline = time.monotonic() + 20
         actions: list[dict] = []
         while time.monotonic() < deadline and not actions:
-            with Store.open(fixture_db, readonly=True) as st:
+            with StoreReader.open(fixture_db) as st:
                 actions = st.operator_actions()
             time.sleep(0.1)
-        assert [(a["kind"], a["target"]) for a in actions] == [("acknowledge", "air-high:air")]
+        assert [(a.kind, a.target) for a in actions] == [("acknowledge", "air-high:air")]
         tmux.wait_for("waiting for the logger")
         tmux.run("send-keys", "-t", tmux.session, "q")
         deadline = time.monotonic() + 20

@@ -11,7 +11,7 @@ import numpy as np
 
 from soaklog.demo import demo_config_text
 from soaklog.report.series import Series
-from soaklog.store import SampleBatch, Store
+from soaklog.store import SampleBatch, StoreWriter
 from soaklog.simulators.chamber import ChamberModel, ChamberParams
 from soaklog.simulators.profiles import Cycle
 from soaklog.simulators.world import _DEMO_POSITIONS
@@ -63,7 +63,7 @@ def build_sim_store(db: Path, *, door_s: float | None = DOOR_S, every_s: float =
         tr = {k: np.concatenate([first[k][:-1], rest[k]]) for k in first}
     text = re.sub(r"(?m)^cycles = \d+", f"cycles = {SIM_CYCLES}", demo_config_text())
     names = [p.name for p in _DEMO_POSITIONS]
-    with Store.open(db) as st:
+    with StoreWriter.open(db) as st:
         info = st.begin_run(text, now_ms=T0_MS, station="qual-lab-demo", name="simulated cycling")
         ids = st.ensure_channels(info.run_id, [(n, n, "meter", "ohm") for n in names])
         t = T0_MS + np.round(tr["t_s"] * 1000).astype(np.int64)

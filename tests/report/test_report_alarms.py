@@ -5,15 +5,16 @@ from __future__ import annotations
 import pytest
 
 from soaklog.report.alarmlog import alarm_episodes, alarm_rates, peak_rating, rate_rating
+from soaklog.store import EventRow
 
 T0 = 1_800_000_000.0
 
 
 def ev(t_s: float, kind: str, alarm: str = "air-high:air-supply", channel: str | None = "air-supply",
-       **data: object) -> dict[str, object]:
-    d = {"alarm": alarm, **data}
-    return {"id": int(t_s * 10), "t_ms": int((T0 + t_s) * 1000), "kind": kind, "channel": channel,
-            "severity": "high", "message": f"{kind} {alarm}", "data": d}
+       **data: object) -> EventRow:
+    """An event as the store reads it back."""
+    return EventRow(t_ms=int((T0 + t_s) * 1000), kind=kind, message=f"{kind} {alarm}", severity="high",
+                    data={"alarm": alarm, **data}, id=int(t_s * 10), channel=channel)
 
 
 def test_an_episode_with_its_acknowledgement_and_action() -> None:

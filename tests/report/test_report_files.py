@@ -83,15 +83,15 @@ def test_the_demo_dwell_is_too_short_for_the_module_cases(sim_report: ReportResu
 
 
 def test_channel_table_agrees_with_the_store(sim_run: SimRun, sim_report: ReportResult) -> None:
-    from soaklog.store import Store
+    from soaklog.store import StoreReader
 
     rows = {r["channel"]: r for r in sim_report.summary["tables"]["channels"]}
-    with Store.open(sim_run.db, readonly=True) as st:
-        summary = {s["channel"]: s for s in st.summary(1)}
+    with StoreReader.open(sim_run.db) as st:
+        summary = {s.channel: s for s in st.summary(1)}
     for name, s in summary.items():
-        assert rows[name]["readings"] == s["readings"]
-        assert rows[name]["min_c"] == pytest.approx(s["min_c"], abs=1e-4)
-        assert rows[name]["max_c"] == pytest.approx(s["max_c"], abs=1e-4)
+        assert rows[name]["readings"] == s.readings
+        assert rows[name]["min_c"] == pytest.approx(s.min_c, abs=1e-4)
+        assert rows[name]["max_c"] == pytest.approx(s.max_c, abs=1e-4)
     # the air alarm (high, 130 °C in the demo configuration) is never reached in a good run
     assert rows["air-supply"]["high_limit_c"] == 130.0 and rows["air-supply"]["above_at_most_min"] == 0.0
 
@@ -211,10 +211,10 @@ def test_a_profile_file_overrides_the_configuration(sim_run: SimRun, tmp_path: P
 def test_a_run_without_a_profile_still_reports(tmp_path: Path) -> None:
     import numpy as np
 
-    from soaklog.store import SampleBatch, Store
+    from soaklog.store import SampleBatch, StoreWriter
 
     db = tmp_path / "plain.db"
-    with Store.open(db) as st:
+    with StoreWriter.open(db) as st:
         info = st.begin_run('[station]\nname = "bare"\n', now_ms=T0_MS)
         ids = st.ensure_channels(info.run_id, [("a", "", "m", "ohm"), ("b", "", "m", "ohm")])
         t = T0_MS + np.arange(0, 600_000, 10_000, dtype=np.int64)
@@ -237,10 +237,10 @@ def test_progress_is_reported_to_the_end(sim_run: SimRun, tmp_path: Path) -> Non
 
 def test_a_run_with_a_profile_but_no_readings(tmp_path: Path) -> None:
     from soaklog.demo import demo_config_text
-    from soaklog.store import Store
+    from soaklog.store import StoreWriter
 
     db = tmp_path / "empty.db"
-    with Store.open(db) as st:
+    with StoreWriter.open(db) as st:
         info = st.begin_run(demo_config_text(), now_ms=T0_MS)
         st.ensure_channels(info.run_id, [("air-supply", "", "meter", "ohm")])
     r = make_report(db, out_dir=tmp_path / "out")
@@ -251,11 +251,11 @@ def test_a_run_with_a_profile_but_no_readings(tmp_path: Path) -> None:
 def test_a_gap_is_listed_with_its_cause(tmp_path: Path) -> None:
     import numpy as np
 
-    from soaklog.store import SampleBatch, Store
+    from soaklog.store import SampleBatch, StoreWriter
 
     # readings every 10 s for 10 min, none for the next 5 min (the logger was stopped), then 10 min more
     db = tmp_path / "gap.db"
-    with Store.open(db) as st:
+    with StoreWriter.open(db) as st:
         info = st.begin_run('[station]\nname = "gappy"\n', now_ms=T0_MS)
         ids = st.ensure_channels(info.run_id, [("a", "", "m", "ohm")])
         t = T0_MS + np.concatenate([np.arange(0, 600_000, 10_000), np.arange(900_000, 1_500_000, 10_000)])
@@ -277,7 +277,7 @@ def test_a_gap_is_listed_with_its_cause(tmp_path: Path) -> None:
 def test_configuration_in_force_shows_coefficients_and_the_calibration_record(tmp_path: Path) -> None:
     import numpy as np
 
-    from soaklog.store import SampleBatch, Store
+    from soaklog.store import SampleBatch, StoreWriter
 
     # a station whose sensor has its own coefficients and a calibration certificate (invented values)
     text = (
@@ -291,7 +291,7 @@ def test_configuration_in_force_shows_coefficients_and_the_calibration_record(tm
         '[profile]\nkind = "soak"\ntemperature_c = 85.0\nduration = "1h"\ntolerance_k = 2.0\n'
     )
     db = tmp_path / "cal.db"
-    with Store.open(db) as st:
+    with StoreWriter.open(db) as st:
         info = st.begin_run(text, now_ms=T0_MS, station="cal-lab")
         ids = st.ensure_channels(info.run_id, [("air", "", "meter", "ohm")])
         t = T0_MS + np.arange(0, 1_800_000, 10_000, dtype=np.int64)

@@ -8,7 +8,7 @@ from collections import defaultdict
 import numpy as np
 from conftest import EPOCH_UTC_S, wait_for
 
-from soaklog.store import Store
+from soaklog.store import StoreReader
 
 
 def test_stored_temperatures_agree_with_the_truth_within_their_uncertainty(lab_run):
@@ -28,7 +28,7 @@ def test_stored_temperatures_agree_with_the_truth_within_their_uncertainty(lab_r
         truth[rec["channel"]].append((EPOCH_UTC_S + float(rec["t_s"]), float(rec["true_c"])))
     for series in truth.values():
         series.sort()
-    with Store.open(run.config.database, readonly=True) as store:
+    with StoreReader.open(run.config.database) as store:
         rows = store.connection.execute(
             "SELECT channel, t_utc, temperature_c, uncertainty_c, status FROM readings_v WHERE run_id = ?",
             (run.run_id,),
@@ -57,10 +57,10 @@ def test_an_instrument_lost_and_back_is_recorded_and_the_others_keep_logging(lab
     run.lab.meter.fault_mute()
     wait_for(lambda: svc.stats.per_instrument.get("board", 0) >= board_before + 15, 30, "board readings while meter mute")
     run.lab.meter.clear_faults()
-    with Store.open(run.config.database, readonly=True) as store:
-        wait_for(lambda: any(e["kind"] == "instrument_recovered" for e in store.events(run.run_id)), 30,
+    with StoreReader.open(run.config.database) as store:
+        wait_for(lambda: any(e.kind == "instrument_recovered" for e in store.events(run.run_id)), 30,
                  "recovery event")
-        kinds = [e["kind"] for e in store.events(run.run_id)]
+        kinds = [e.kind for e in store.events(run.run_id)]
         statuses = dict(store.connection.execute(
             "SELECT status, COUNT(*) FROM readings_v WHERE channel = 'air-supply' GROUP BY status").fetchall())
         board_ok = store.connection.execute(
@@ -85,9 +85,9 @@ def test_disk_full_keeps_readings_in_memory_and_stores_them_when_space_returns(l
     svc.stop()
     assert svc.stats.dropped == 0
     assert svc.stats.stored == svc.stats.readings
-    with Store.open(run.config.database, readonly=True) as store:
+    with StoreReader.open(run.config.database) as store:
         n = store.connection.execute("SELECT COUNT(*) FROM readings_v WHERE run_id = ?", (run.run_id,)).fetchone()[0]
-        kinds = [e["kind"] for e in store.events(run.run_id)]
+        kinds = [e.kind for e in store.events(run.run_id)]
     assert n == svc.stats.readings
     assert "storage_recovered" in kinds
 
@@ -97,9 +97,9 @@ def test_scans_follow_their_schedule_without_drift(lab_run):
     run = lab_run(speed=30.0)
     wait_for(lambda: run.service.stats.per_instrument.get("meter", 0) >= 5 * 15, 60, "15 meter scans")
     run.service.stop()
-    with Store.open(run.config.database, readonly=True) as store:
+    with StoreReader.open(run.config.database) as store:
         ch = next(c.id for c in store.channels(run.run_id) if c.name == "air-supply")
-        t, _, _ = store.raw_window(ch, 0, 2**62)
+        t = store.raw_window(ch, 0, 2**62).t_ms
     steps = np.diff(t) / 1000.0
     assert len(steps) >= 14
     # the demo meter scans every 10 s of chamber time
