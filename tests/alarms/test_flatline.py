@@ -131,12 +131,12 @@ def test_a_stuck_sensor_in_the_simulated_lab_raises_the_flatline_alarm(alarm_lab
     run = alarm_lab(speed=120.0, extra=FLATLINE)
     # the chamber's own fault: the shelf-2-rear sensor keeps the reading of this moment
     assert run.lab.world.commands().execute("fault stuck shelf-2-rear") == "ok stuck shelf-2-rear"
-    wait_for(lambda: run.alarms().get("stuck:shelf-2-rear", {}).get("state") == "unacknowledged", 60,
+    wait_for(lambda: getattr(run.alarms().get("stuck:shelf-2-rear"), "state", None) == "unacknowledged", 60,
              "the flatline alarm on the stuck sensor")
-    raised = [e for e in run.events("alarm_raised") if e["data"].get("rule") == "stuck"]
-    assert [e["channel"] for e in raised] == ["shelf-2-rear"]  # the live sensors keep moving
-    assert "flat within ±0.01 K" in raised[0]["message"]
+    raised = [e for e in run.events("alarm_raised") if (e.data or {}).get("rule") == "stuck"]
+    assert [e.channel for e in raised] == ["shelf-2-rear"]  # the live sensors keep moving
+    assert "flat within ±0.01 K" in raised[0].message
     # the sensor comes back: its reading follows the chamber again and the alarm returns
     run.lab.world.commands().execute("clear")
-    wait_for(lambda: run.alarms()["stuck:shelf-2-rear"]["state"] == "returned_unacknowledged", 60,
+    wait_for(lambda: run.alarms()["stuck:shelf-2-rear"].state == "returned_unacknowledged", 60,
              "the flatline alarm to return")
