@@ -18,7 +18,9 @@ from typing import Any
 
 from soaklog.drivers.base import STATUSES
 from soaklog.errors import ConfigError, InputError
-from soaklog.kinds import ALARM_RULES, INSTRUMENTS, SENSORS
+from soaklog.kinds import ACTIONS, ALARM_RULES, INSTRUMENTS, SENSORS
+from soaklog.kinds.actions import COMMON_KEYS as ACTION_COMMON_KEYS
+from soaklog.kinds.actions import TRIGGERS, ActionKind
 from soaklog.kinds.alarms import COMMON_KEYS as ALARM_COMMON_KEYS
 from soaklog.kinds.alarms import SEVERITIES, AlarmContext, AlarmRuleKind
 from soaklog.kinds.instruments import COMMON_KEYS, InstrumentKind
@@ -123,9 +125,8 @@ class ChannelConfig:
 class ActionConfig:
     """What to do when an alarm changes state (``on``: raised, cleared, acknowledged).
 
-    ``kind`` is log, program (``argv``, ``timeout_s``), scpi (``resource``,
-    ``commands``, ``backend``, ``timeout_s``, ``check_errors``, ``verify``) or
-    serial_line (``port``, ``line``, ``state``, ``baudrate``).
+    ``kind`` names an action kind (soaklog.kinds.ACTIONS: log, program, scpi,
+    serial_line, …); ``params`` are its settings as the kind read them.
     """
 
     kind: str
@@ -136,16 +137,12 @@ class ActionConfig:
     @property
     def name(self) -> str:
         """How the action is named in events: its label, or what it does."""
-        if self.label:
-            return self.label
-        p = self.params
-        if self.kind == "program":
-            return "program " + " ".join(p.get("argv", ()))[:80]
-        if self.kind == "scpi":
-            return f"scpi {'; '.join(p.get('commands', ()))} to {p.get('resource', '')}"
-        if self.kind == "serial_line":
-            return f"{'set' if p.get('state') else 'clear'} {str(p.get('line', '')).upper()} of {p.get('port', '')}"
-        return "log"
+        return self.label or self.kind_of.describe(self.params)
+
+    @property
+    def kind_of(self) -> ActionKind:
+        """The action kind its ``kind`` names (soaklog.kinds.ACTIONS)."""
+        return ACTIONS[self.kind]
 
 
 @dataclass(frozen=True)
@@ -493,17 +490,6 @@ def _leads(ck: _Checker, d: Mapping[str, Any], key: str, wiring: int | None) -> 
 
 #: every status a stored reading can have (the store's list; a test keeps them equal)
 _READING_STATUSES = frozenset(STATUSES)
-_ACTION_KINDS = {"log", "program", "scpi", "serial_line"}
-_ACTION_TRIGGERS = {"raised", "cleared", "acknowledged"}
-_ACTION_KEYS: dict[str, set[str]] = {
-    "log": {"message"},
-    "program": {"argv", "timeout"},
-    "scpi": {"resource", "commands", "backend", "timeout", "check_errors", "verify"},
-    "serial_line": {"port", "line", "state", "baudrate"},
-}
-_ACTION_KEYS_ANY = {"kind", "on", "name"}
-#: the longest an action may run (a hung program is killed at its limit)
-MAX_ACTION_TIMEOUT_S = 600.0
 
 
 def _alarms(
@@ -552,6 +538,7 @@ def _alarms(
 
 
 def _actions(ck: _Checker, raw: Any, key: str) -> list[ActionConfig]:
+    """An alarm's actions: the keys every action has here, its kind's own keys read by the kind."""
     out: list[ActionConfig] = []
     if not isinstance(raw, list):
         ck.bad(key, f"must be a list of tables ([[alarm.actions]] or [{{ kind = \"log\" }}]), got {type(raw).__name__}")
@@ -559,77 +546,22 @@ def _actions(ck: _Checker, raw: Any, key: str) -> list[ActionConfig]:
     for j, item in enumerate(raw):
         k = f"{key}[{j + 1}]"
         d = ck.table(item, k)
-        kind = ck.get(d, k, "kind", str, required=True,
-                      check=lambda v: None if v in _ACTION_KINDS else f"must be one of {', '.join(sorted(_ACTION_KINDS))}, got {v!r}")
-        if kind is None:
+        kind_name = ck.get(d, k, "kind", str, required=True, check=one_of(ACTIONS.names))
+        kind = ACTIONS.get(kind_name) if kind_name is not None else None
+        if kind is None or kind_name is None:
             continue
-        ck.unknown(d, k, _ACTION_KEYS_ANY | _ACTION_KEYS[kind])
+        ck.unknown(d, k, set(ACTION_COMMON_KEYS) | set(kind.keys))
         on = d.get("on", ["raised"])
         if isinstance(on, str):
             on = [on]
-        if not isinstance(on, list) or not on or not all(isinstance(x, str) and x in _ACTION_TRIGGERS for x in on):
-            ck.bad(f"{k}.on", f"must be one or more of {', '.join(sorted(_ACTION_TRIGGERS))}, got {d.get('on')!r}")
+        if not isinstance(on, list) or not on or not all(isinstance(x, str) and x in TRIGGERS for x in on):
+            ck.bad(f"{k}.on", f"must be one or more of {', '.join(sorted(TRIGGERS))}, got {d.get('on')!r}")
             on = ["raised"]
-        p: dict[str, Any] = {}
         label = ck.get(d, k, "name", str, default="") or ""
-        ok = True
-        if kind == "log":
-            p["message"] = ck.get(d, k, "message", str, default="") or ""
-        elif kind == "program":
-            argv = d.get("argv")
-            if (not isinstance(argv, list) or not argv or not all(isinstance(a, str) for a in argv)
-                    or not argv[0].strip()):
-                ck.bad(f"{k}.argv", f"must be the program and its arguments as a list of text, "
-                       f"run without a shell: [\"/usr/local/bin/page-lab\", \"--urgent\"]; got {argv!r}")
-                ok = False
-            else:
-                p["argv"] = tuple(argv)
-            p["timeout_s"] = _action_timeout(ck, d, k, "10s")
-        elif kind == "scpi":
-            res = ck.get(d, k, "resource", str, required=True)
-            cmds = d.get("commands")
-            if not isinstance(cmds, list) or not cmds or not all(isinstance(c, str) and c.strip() for c in cmds) \
-                    or any("\n" in c for c in cmds):
-                ck.bad(f"{k}.commands", f"must be a list of SCPI commands, one line each: [\"OUTP OFF\"]; got {cmds!r}")
-                ok = False
-            else:
-                p["commands"] = tuple(c.strip() for c in cmds)
-            if res is None:
-                ok = False
-            else:
-                p["resource"] = res
-            p["backend"] = ck.get(d, k, "backend", str, default="@py") or "@py"
-            p["timeout_s"] = _action_timeout(ck, d, k, "5s")
-            ce = ck.get(d, k, "check_errors", bool, default=True)
-            p["check_errors"] = True if ce is None else ce
-            if "verify" in d:
-                vk = f"{k}.verify"
-                v = ck.table(d["verify"], vk)
-                ck.unknown(v, vk, {"query", "reply"})
-                q = ck.get(v, vk, "query", str, required=True, check=lambda x: None if x.strip().endswith("?") else f"must be a query (ending in '?'), got {x!r}")
-                r = ck.get(v, vk, "reply", str, required=True)
-                if q is not None and r is not None:
-                    p["verify"] = (q.strip(), r.strip())
-        elif kind == "serial_line":
-            port = ck.get(d, k, "port", str, required=True)
-            line = ck.get(d, k, "line", str, required=True,
-                          check=lambda v: None if v.lower() in ("rts", "dtr") else f"must be rts or dtr, got {v!r}")
-            state = ck.get(d, k, "state", bool, default=True)
-            baud = ck.get(d, k, "baudrate", int, default=9600, check=_positive)
-            if port is None or line is None:
-                ok = False
-            else:
-                p.update(port=port, line=line.lower(), state=bool(state), baudrate=baud or 9600)
-        if ok:
-            out.append(ActionConfig(kind, tuple(dict.fromkeys(on)), p, label))
+        p = kind.read(ck, d, k)
+        if p is not None:
+            out.append(ActionConfig(kind_name, tuple(dict.fromkeys(on)), p, label))
     return out
-
-
-def _action_timeout(ck: _Checker, d: Mapping[str, Any], key: str, default: str) -> float:
-    s = ck.duration(d, key, "timeout", default=default) or parse_duration(default)
-    if s > MAX_ACTION_TIMEOUT_S:
-        ck.bad(f"{key}.timeout", f"must be at most {MAX_ACTION_TIMEOUT_S:g} s, got {s:g} s")
-    return s
 
 
 def _metrology_warnings(

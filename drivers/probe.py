@@ -12,17 +12,15 @@ import time
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-import pyvisa
-from pyvisa.constants import StatusCode
-
 from soaklog.drivers.base import RawReading, failed_scan
-from soaklog.drivers.scpi_meter import PROFILES, MeterProfile, format_channel_list, parse_error_entry, parse_reply
+from soaklog.drivers.scpi_session import ReplyGarbled, ScpiSession
+from soaklog.drivers.scpi_text import PROFILES, MeterProfile, format_channel_list, parse_reply
+from soaklog.errors import InstrumentError, InstrumentTimeout
 
 __all__ = ["ProbeResult", "probe", "format_probe"]
 
 #: the name of the reading taken without a channel list (the meter's front terminals)
 FRONT = "front"
-_MAX_ERROR_ENTRIES = 32
 
 
 @dataclass(frozen=True)
@@ -60,14 +58,6 @@ class ProbeResult:
         return 0 if self.ok else 1
 
 
-class _Failed(Exception):
-    """One question could not be asked or answered; the text is the diagnosis, ``status`` the reading status."""
-
-    def __init__(self, message: str, status: str = "lost") -> None:
-        super().__init__(message)
-        self.status = status
-
-
 def _where(resource: str) -> str:
     """``host:port`` of a TCPIP socket resource, else the resource itself."""
     parts = resource.split("::")
@@ -76,38 +66,26 @@ def _where(resource: str) -> str:
     return resource
 
 
-def _ask(inst: pyvisa.resources.MessageBasedResource, command: str, resource: str, timeout_s: float) -> str:
-    """One query; every foreign failure becomes a ``_Failed`` with a diagnosis."""
-    try:
-        return inst.query(command)
-    except pyvisa.errors.VisaIOError as exc:
-        if exc.error_code == StatusCode.error_timeout:
-            if command == "*IDN?":
-                raise _Failed(
-                    f"no answer to *IDN? within {timeout_s:g} s: something accepted the connection but sent no "
+def _diagnosis(exc: InstrumentError, identify: str, resource: str, timeout_s: float) -> tuple[str, str]:
+    """What the session's failure means for someone at the bench, and the reading status it gives."""
+    command = exc.command or ""
+    cause = exc.__cause__
+    if isinstance(exc, InstrumentTimeout):
+        if command == identify:
+            return (f"no answer to {identify} within {timeout_s:g} s: something accepted the connection but sent no "
                     "line ending in \\n; check the instrument's read/write termination (this program uses \\n) "
-                    "and that this port speaks SCPI",
-                    "timeout",
-                ) from exc
-            raise _Failed(
-                f"no answer to {command!r} within {timeout_s:g} s; the reading may take longer "
-                "(NPLC, autorange, many channels): try a longer timeout",
-                "timeout",
-            ) from exc
-        raise _Failed(f"the session failed on {command!r}: {exc.description}") from exc
-    except ConnectionRefusedError as exc:
-        raise _Failed(
-            f"nothing is listening at {_where(resource)} (connection refused): is the instrument on, "
-            "at this address, and is this its SCPI port (often 5025)?"
-        ) from exc
-    except OSError as exc:
-        raise _Failed(f"the connection to {_where(resource)} failed on {command!r}: {exc}") from exc
-    except UnicodeDecodeError as exc:
-        raise _Failed(
-            f"the answer to {command!r} is not ASCII text (garbage): this port may not speak SCPI, "
-            "or a serial link has the wrong baud rate",
-            "garbage",
-        ) from exc
+                    "and that this port speaks SCPI"), "timeout"
+        return (f"no answer to {command!r} within {timeout_s:g} s; the reading may take longer "
+                "(NPLC, autorange, many channels): try a longer timeout"), "timeout"
+    if isinstance(cause, ConnectionRefusedError):
+        return (f"nothing is listening at {_where(resource)} (connection refused): is the instrument on, "
+                "at this address, and is this its SCPI port (often 5025)?"), "lost"
+    if isinstance(cause, UnicodeDecodeError):
+        return (f"the answer to {command!r} is not ASCII text (garbage): this port may not speak SCPI, "
+                "or a serial link has the wrong baud rate"), "garbage"
+    if isinstance(exc, ReplyGarbled):
+        return f"{exc}: this port may not speak SCPI", "garbage"
+    return str(exc), "lost"
 
 
 def probe(
@@ -121,6 +99,10 @@ def probe(
 ) -> ProbeResult:
     """Open ``resource``, read its identity, one reading per channel, and its error queue.
 
+    It talks through the driver layer's SCPI session (``drivers.scpi_session``),
+    as the logger's own driver does: the same identity check, time limits and
+    reading of the error queue.
+
     Args:
         resource: a VISA resource string (``TCPIP0::192.0.2.5::5025::SOCKET``).
         channels: card channels to read one at a time; None reads once without a channel list.
@@ -132,24 +114,8 @@ def probe(
     wiring = 4 if four_wire else 2
     template = profile.measure_4w if four_wire else profile.measure_2w
     names = [str(c) for c in channels] if channels else [FRONT]
-    try:
-        rm = pyvisa.ResourceManager(backend)
-    except (OSError, ValueError, ImportError, pyvisa.errors.Error) as exc:
-        return ProbeResult(resource, backend, None, problem=f"cannot load the VISA backend {backend!r}: {exc}")
-    timeout_ms = max(1, round(timeout_s * 1000.0))
-    try:
-        inst = rm.open_resource(
-            resource, read_termination="\n", write_termination="\n", timeout=timeout_ms, open_timeout=timeout_ms
-        )
-    except pyvisa.errors.VisaIOError as exc:
-        return ProbeResult(resource, backend, None, problem=f"cannot open {resource}: {exc.description}")
-    except Exception as exc:  # pyvisa-py raises a bare Exception when the TCP connect times out
-        return ProbeResult(resource, backend, None, problem=f"cannot open {resource}: {exc}")
-    if not isinstance(inst, pyvisa.resources.MessageBasedResource):
-        inst.close()
-        problem = f"{resource} is not a message-based resource; SCPI needs one"
-        return ProbeResult(resource, backend, None, problem=problem)
-
+    session = ScpiSession("probe", resource, backend=backend, timeout_s=timeout_s, identify=profile.identify,
+                          error_query=profile.error_query)
     identity: str | None = None
     readings: list[RawReading] = []
     errors: list[str] = []
@@ -157,37 +123,26 @@ def probe(
     problem = ""
     errors_read = False
     try:
-        answer = _ask(inst, profile.identify, resource, timeout_s).strip()
-        if not answer or not answer.isprintable():
-            raise _Failed(f"the answer to *IDN? is {answer!r}, not an identity: this port may not speak SCPI")
-        identity = answer
+        identity = session.open()
         for name in names:
             command = profile.render(template, channels="" if name == FRONT else format_channel_list([name]))
             try:
-                reply = _ask(inst, command, resource, timeout_s)
-            except _Failed as exc:
+                reply = session.query(command)
+            except InstrumentError as exc:
                 # the stream may be out of step now: ask nothing more
-                readings.extend(failed_scan(names[len(readings):], time.time(), exc.status, str(exc)))
+                why, status = _diagnosis(exc, profile.identify, resource, timeout_s)
+                readings.extend(failed_scan(names[len(readings):], time.time(), status, why))
                 raise
             readings.extend(parse_reply(reply, [name], time.time(), wiring=wiring))
-        for _ in range(_MAX_ERROR_ENTRIES):
-            entry = _ask(inst, profile.error_query, resource, timeout_s).strip()
-            parsed = parse_error_entry(entry)
-            if parsed is None:
-                notes.append(f"the answer to {profile.error_query} is not an error entry: {entry[:60]!r}")
-                break
-            if parsed[0] == 0:
-                errors_read = True
-                break
-            errors.append(entry)
-    except _Failed as exc:
-        problem = str(exc)
-    finally:
-        # close the session only: pyvisa shares one manager per backend with the whole process
         try:
-            inst.close()
-        except (pyvisa.errors.Error, OSError):
-            pass
+            errors = [f'{code},"{message}"' for code, message in session.drain_errors()]
+            errors_read = True
+        except ReplyGarbled as exc:
+            notes.append(f"the error queue could not be read to its end: {exc}")
+    except InstrumentError as exc:
+        problem = _diagnosis(exc, profile.identify, resource, timeout_s)[0]
+    finally:
+        session.close()  # the session only: pyvisa shares one manager per backend with the whole process
     if errors:
         notes.append(f"the instrument's error queue held {len(errors)} entr{'y' if len(errors) == 1 else 'ies'}")
     if any(r.status == "garbage" for r in readings) and not problem:

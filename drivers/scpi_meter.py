@@ -1,8 +1,9 @@
 """SCPI ohmmeters over VISA: a driver that recovers by itself (parsing and profiles: ``drivers.scpi_text``).
 
-The driver opens the instrument through ``pyvisa.ResourceManager(backend)``,
-checks who answers, configures one fixed range (so the test current is known),
-and reads one comma-separated reply per scan. Instrument trouble becomes a
+The driver opens the instrument through the driver layer's SCPI session
+(``drivers.scpi_session``: pyvisa, the identity check, failures translated
+once, the error queue), configures one fixed range (so the test current is
+known), and reads one comma-separated reply per scan. Instrument trouble becomes a
 status on the readings, never an exception: after a timeout or a lost link the
 session is closed (never ``clear()``-ed, which hangs on a dead socket) and
 re-opened after a capped exponential back-off, so a late answer can never be
@@ -15,15 +16,10 @@ Commands live in ``MeterProfile`` templates only; placeholders are
 from __future__ import annotations
 
 import dataclasses
-import select
-import socket
 import threading
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Literal, TypeVar
-
-import pyvisa
-from pyvisa.constants import StatusCode
 
 from soaklog.errors import (
     ConnectionLost,
@@ -43,6 +39,8 @@ from soaklog.drivers.scpi_text import (
     parse_scan,
     profile_named,
 )
+from soaklog.drivers.scpi_session import ReplyGarbled, ScpiSession
+from soaklog.drivers.scpi_session import stream_state as _stream_state
 from soaklog.drivers.scpi_text import shown as _shown
 
 
@@ -65,14 +63,8 @@ __all__ = [
 #: IEEE 488.2-1992, 11.5.1.1 (from memory): event status register bits
 _ESR_PON = 128
 _ESR_ERRORS = 4 | 8 | 16 | 32  # query, device-dependent, execution, command error
-#: SCPI error queues hold tens of entries; more than this is a meter that never says 0
-_MAX_ERROR_ENTRIES = 64
 
 # -------------------------------------------------------------------- the driver
-
-
-class ReplyGarbled(InstrumentError):
-    """An answer that is not ASCII text or not what the command answers."""
 
 
 @dataclass(frozen=True)
@@ -92,7 +84,6 @@ class Backoff:
         return min(self.initial_s * self.factor ** max(failures - 1, 0), self.max_s)
 
 
-_T = TypeVar("_T")
 _E = TypeVar("_E", bound=InstrumentError)
 Wiring = Literal[2, 4]
 
@@ -188,9 +179,9 @@ class ScpiMeter:
             self._scan_current, self._scan_wiring = self._currents, self._wirings
         self._clock: Clock = clock if clock is not None else SystemClock()
         self._backoff = backoff
-        self._rm: pyvisa.ResourceManager | None = None
-        self._inst: pyvisa.resources.MessageBasedResource | None = None
-        self._expected_identity: str | None = None
+        # the driver layer's one SCPI session: identity check, translated failures, the error queue
+        self._session = ScpiSession(name, resource, backend=backend, timeout_s=self.timeout_s,
+                                    identify=profile.identify, error_query=profile.error_query)
         self._opened_once = False
         self._failures = 0
         self._retry_at_s: float | None = None  # on the monotonic time line
@@ -261,28 +252,16 @@ class ScpiMeter:
 
     # --- connecting ------------------------------------------------------------------
 
+    @property
+    def _inst(self) -> object | None:
+        """The open pyvisa resource, or None."""
+        return self._session.instrument
+
     def _connect(self) -> None:
         if self._opened_once:
             self._health.counters["reconnect_attempts"] += 1
-        rm = self._resource_manager()
+        self._health.identity = self._session.open()  # opened, and the same instrument answers as first met
         try:
-            inst = rm.open_resource(
-                self.resource,
-                read_termination="\n",
-                write_termination="\n",
-                timeout=_visa_ms(self.timeout_s),
-                open_timeout=_visa_ms(self.timeout_s),
-            )
-        except pyvisa.errors.VisaIOError as exc:
-            raise self._error(ConnectionLost, f"cannot open the resource: {exc.description}") from exc
-        except Exception as exc:  # pyvisa-py raises a bare Exception when the TCP connect times out
-            raise self._error(ConnectionLost, f"cannot open the resource: {exc}") from exc
-        if not isinstance(inst, pyvisa.resources.MessageBasedResource):
-            inst.close()
-            raise self._error(InstrumentError, "is not a message-based resource; SCPI needs one")
-        self._inst = inst
-        try:
-            self._identify()
             self._configure()
         except InstrumentError:
             self._drop()
@@ -294,20 +273,6 @@ class ScpiMeter:
         if self._opened_once:
             self._health.reconnects += 1
         self._opened_once = True
-
-    def _identify(self) -> None:
-        identity = self._query(self.profile.identify).strip()
-        if not identity or not identity.isprintable():
-            what = f"answered {self.profile.identify!r} with {_shown(identity)}, not an identity"
-            raise self._error(ReplyGarbled, what, self.profile.identify)
-        if self._expected_identity is not None and identity != self._expected_identity:
-            what = (
-                f"now answers as {identity!r}, not {self._expected_identity!r}; "
-                "another instrument at this address? check it and restart"
-            )
-            raise self._error(InstrumentError, what, self.profile.identify)
-        self._expected_identity = identity
-        self._health.identity = identity
 
     def _configure(self) -> None:
         p = self.profile
@@ -347,21 +312,10 @@ class ScpiMeter:
 
     def _drain_errors(self) -> list[tuple[int, str]]:
         """Read the error queue until it says 0."""
-        command = self.profile.error_query
-        if not command:
-            return []
-        entries: list[tuple[int, str]] = []
-        for _ in range(_MAX_ERROR_ENTRIES):
-            reply = self._query(command)
-            entry = parse_error_entry(reply)
-            if entry is None:
-                raise self._error(ReplyGarbled, f"answered {command!r} with {_shown(reply)}", command)
-            if entry[0] == 0:
-                return entries
-            entries.append(entry)
-            self._health.counters["instrument_errors"] += 1
-        what = f"error queue did not empty after {_MAX_ERROR_ENTRIES} reads of {command!r}"
-        raise self._error(ReplyGarbled, what, command)
+        return self._session.drain_errors(on_entry=self._count_error)
+
+    def _count_error(self, code: int, message: str) -> None:
+        self._health.counters["instrument_errors"] += 1
 
     # --- reading ---------------------------------------------------------------------
 
@@ -398,63 +352,19 @@ class ScpiMeter:
     # --- I/O, translated once --------------------------------------------------------
 
     def _query(self, command: str) -> str:
-        inst = self._require()
-        return self._io(command, lambda: inst.query(command))
+        return self._session.query(command)
 
     def _write(self, command: str) -> None:
-        inst = self._require()
-        self._io(command, lambda: inst.write(command))
-
-    def _require(self) -> pyvisa.resources.MessageBasedResource:
-        if self._inst is None:
-            raise self._error(ConnectionLost, "is not open")
-        return self._inst
-
-    def _io(self, command: str, op: Callable[[], _T]) -> _T:
-        try:
-            return op()
-        except pyvisa.errors.VisaIOError as exc:
-            if exc.error_code == StatusCode.error_timeout:
-                advice = (
-                    "check the read termination (this driver ends lines with \\n) and that the port speaks SCPI"
-                    if command == self.profile.identify
-                    else "check the read termination, or raise timeout_s if a scan takes longer"
-                )
-                err = InstrumentTimeout(
-                    f"no reply to {command!r} from {self.name} ({self.resource}) within {self.timeout_s:g} s; {advice}",
-                    resource=self.resource,
-                    command=command,
-                )
-                err.timeout_s = self.timeout_s  # type: ignore[attr-defined]
-                raise err from exc
-            raise self._error(ConnectionLost, f"failed on {command!r}: {exc.description}", command) from exc
-        except pyvisa.errors.Error as exc:  # e.g. InvalidSession: the session was closed under us
-            raise self._error(ConnectionLost, f"lost its VISA session on {command!r}: {exc}", command) from exc
-        except ConnectionRefusedError as exc:
-            what = "refused the connection: nothing listens there; is the instrument on and the port right?"
-            raise self._error(ConnectionLost, what, command) from exc
-        except OSError as exc:
-            raise self._error(ConnectionLost, f"lost the connection on {command!r}: {exc}", command) from exc
-        except UnicodeDecodeError as exc:
-            what = f"answered {command!r} with bytes that are not ASCII ({exc.reason} at byte {exc.start})"
-            raise self._error(ReplyGarbled, what, command) from exc
-
-    def _resource_manager(self) -> pyvisa.ResourceManager:
-        if self._rm is None:
-            try:
-                self._rm = pyvisa.ResourceManager(self.backend)
-            except (OSError, ValueError, ImportError, pyvisa.errors.Error) as exc:
-                raise self._error(InstrumentError, f"cannot load the VISA backend {self.backend!r}: {exc}") from exc
-        return self._rm
+        self._session.write(command)
 
     # --- bookkeeping -----------------------------------------------------------------
 
     def _where(self, what: str) -> str:
-        return f"{self.name} ({self.resource}) {what}"
+        return self._session.where(what)
 
     def _error(self, kind: type[_E], what: str, command: str | None = None) -> _E:
         """An exception of ``kind`` that names this instrument and keeps the facts as attributes."""
-        return kind(self._where(what), resource=self.resource, command=command)
+        return self._session.error(kind, what, command)
 
     def _note(self, message: str) -> None:
         self._health.last_error = message
@@ -463,13 +373,8 @@ class ScpiMeter:
 
     def _drop(self) -> None:
         """Close the session without ``clear()`` (which hangs on a dead socket)."""
-        inst, self._inst = self._inst, None
+        self._session.close()
         self._health.connected = False
-        if inst is not None:
-            try:
-                inst.close()
-            except (pyvisa.errors.Error, OSError):
-                pass
 
     def _failed(self, exc: InstrumentError, *, backoff: bool) -> None:
         self._drop()
@@ -487,36 +392,3 @@ class ScpiMeter:
     def _failed_scan(self, exc: InstrumentError, status: str, *, backoff: bool) -> list[RawReading]:
         self._failed(exc, backoff=backoff)
         return failed_scan(self.channels, self._clock.utc_s(), status, str(exc))
-
-
-def _visa_ms(seconds: float) -> int:
-    """VISA timeouts are whole milliseconds."""
-    return max(1, round(seconds * 1000.0))
-
-
-def _stream_state(inst: object) -> Literal["idle", "closed", "stale", "unknown"]:
-    """Whether a pyvisa-py TCP socket session was closed by its peer or holds unrequested bytes.
-
-    pyvisa-py does not notice a closed peer: the next query spins a CPU core
-    for the whole timeout. Looking at the socket first (no I/O, no wait)
-    catches it. Sessions of other backends are ``unknown`` and left alone.
-    """
-    try:
-        session = inst.visalib.sessions[inst.session]  # type: ignore[attr-defined]
-    except (AttributeError, KeyError, TypeError, pyvisa.errors.Error):
-        return "unknown"
-    sock = getattr(session, "interface", None)
-    if not isinstance(sock, socket.socket):
-        return "unknown"
-    if getattr(session, "_pending_buffer", b""):
-        return "stale"
-    try:
-        ready, _, _ = select.select([sock], [], [], 0)
-        if not ready:
-            return "idle"
-        data = sock.recv(1, socket.MSG_PEEK)
-    except BlockingIOError:
-        return "idle"
-    except (OSError, ValueError):
-        return "closed"
-    return "stale" if data else "closed"

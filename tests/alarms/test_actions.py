@@ -134,7 +134,8 @@ def test_scpi_output_off_reaches_the_simulated_supply_and_is_verified(supply):
     outcome, detail = send_scpi(sim.resource, ["OUTPut OFF"], verify=("OUTPut?", "0"), timeout_s=5.0)
     assert outcome == "done", detail
     assert world.heater_supply_enabled is False
-    assert sim.received()[0] == "OUTPut OFF"
+    # who answers is checked first, as the meter driver checks (the driver layer's one session)
+    assert sim.received()[:2] == ["*IDN?", "OUTPut OFF"]
     assert "SYST:ERR?" in sim.received()  # the error queue was read (SCPI-1999 vol. 2, ch. 21)
 
 
@@ -281,3 +282,26 @@ def test_submit_never_blocks_a_full_queue_fails_at_once(tmp_path):
     assert [o.outcome for o in rest].count("timed_out") <= 1  # the one running, if the worker had begun it
     assert all("not run" in o.detail for o in rest if o.outcome == "failed")
     assert len(dropped) + len(rest) == MAX_QUEUED + 3  # every request has its outcome
+
+
+def test_an_scpi_action_checks_who_answers_before_it_sends_anything():
+    """The driver layer's session asks *IDN? first; a port that does not answer with an identity gets no command."""
+    import socketserver
+    import threading
+
+    heard: list[bytes] = []
+
+    class NotScpi(socketserver.StreamRequestHandler):
+        def handle(self) -> None:
+            for line in self.rfile:
+                heard.append(line.strip())
+                self.wfile.write(b"\x07\x01\n")  # an answer, but no identity
+
+    with socketserver.ThreadingTCPServer(("127.0.0.1", 0), NotScpi) as server:
+        server.daemon_threads = True
+        threading.Thread(target=server.serve_forever, daemon=True).start()
+        host, port = server.server_address[:2]
+        outcome, detail = send_scpi(f"TCPIP0::{host}::{port}::SOCKET", ["OUTPut OFF"], timeout_s=5.0)
+        server.shutdown()
+    assert outcome == "failed" and "not an identity" in detail
+    assert heard == [b"*IDN?"]
