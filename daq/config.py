@@ -11,7 +11,7 @@ import datetime as _dt
 import re
 import tomllib
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from types import MappingProxyType
 from pathlib import Path
 from typing import Any
@@ -190,8 +190,11 @@ class StationConfig:
         sensor = self.sensor(channel.sensor)
         inst = self.instrument(channel.instrument)
         current = channel.excitation_a if channel.excitation_a is not None else inst.current_a(channel)
-        return sensor.kind.chain(sensor, channel, current_a=current, meter=inst.kind.meter_spec(inst, channel),
-                                 adc=inst.kind.adc_spec(inst, channel))
+        chain = sensor.kind.chain(sensor, channel, current_a=current, meter=inst.kind.meter_spec(inst, channel),
+                                  adc=inst.kind.adc_spec(inst, channel))
+        rng = inst.range_ohm(channel)
+        # a fixed range bounds what a reading can honestly be (over_range above it)
+        return chain if rng is None or chain.range_ohm is not None else replace(chain, range_ohm=rng)
 
 
 # ---------------------------------------------------------------- validation
@@ -232,7 +235,7 @@ _CHANNEL_KEYS = {
     "name", "label", "instrument", "input", "sensor", "wiring", "lead", "imbalance_ohm", "excitation_ma",
     "position", "range_ohm",
 }
-_LEAD_KEYS = {"ohms", "awg", "mm2", "inside_m", "outside_m", "tolerance", "imbalance_fraction"}
+_LEAD_KEYS = {"ohms", "awg", "mm2", "class", "inside_m", "outside_m", "tolerance", "imbalance_fraction"}
 
 
 def load_config(path: str | Path, *, today: _dt.date | None = None) -> StationConfig:
@@ -465,7 +468,7 @@ def _leads(ck: _Checker, d: Mapping[str, Any], key: str, wiring: int | None) -> 
         if name in t:
             kw[name] = ck.get(t, lk, name, float, check=lambda v: None if 0 <= v <= 1 else f"a fraction 0…1, got {v!r}")
     try:
-        if "ohms" in t and any(k in t for k in ("awg", "mm2", "inside_m", "outside_m")):
+        if "ohms" in t and any(k in t for k in ("awg", "mm2", "class", "inside_m", "outside_m")):
             ck.bad(lk, "give the lead as ohms (one conductor) or as a copper gauge with lengths, not both")
             return None
         if "ohms" in t:
@@ -481,6 +484,9 @@ def _leads(ck: _Checker, d: Mapping[str, Any], key: str, wiring: int | None) -> 
                 area_mm2=mm2,
                 inside_length_m=ck.get(t, lk, "inside_m", float, default=0.0, check=_non_negative) or 0.0,
                 outside_length_m=ck.get(t, lk, "outside_m", float, default=0.0, check=_non_negative) or 0.0,
+                # IEC 60228 conductor class of a metric cross-section (1 solid, 2 stranded, 5 flexible)
+                lead_class=ck.get(t, lk, "class", int,
+                                  check=lambda v: None if v in (1, 2, 5) else f"an IEC 60228 class: 1, 2 or 5, got {v!r}"),
             )
         return Leads(wiring, conductor, imbalance_ohm=imb or 0.0, **{k: v for k, v in kw.items() if v is not None})  # type: ignore[arg-type]
     except InputError as exc:

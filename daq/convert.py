@@ -37,6 +37,7 @@ class ConvertOptions:
     lead_ohm: float | None = None
     lead_awg: str | None = None
     lead_mm2: float | None = None
+    lead_class: int | None = None
     lead_inside_m: float = 0.0
     lead_outside_m: float = 0.0
     imbalance_ohm: float = 0.0
@@ -112,6 +113,8 @@ def _leads(opts: ConvertOptions) -> Leads:
         return Leads(4)
     if opts.lead_ohm is not None and copper:
         raise InputError("give the lead as --lead-ohms or as a copper gauge with lengths, not both")
+    if opts.lead_class is not None and opts.lead_mm2 is None:
+        raise InputError("--lead-class qualifies a metric cross-section: give --lead-mm2 too")
     if opts.lead_ohm is not None:
         conductor = Conductor.fixed(opts.lead_ohm)
     elif copper:
@@ -120,6 +123,7 @@ def _leads(opts: ConvertOptions) -> Leads:
             area_mm2=opts.lead_mm2,
             inside_length_m=opts.lead_inside_m,
             outside_length_m=opts.lead_outside_m,
+            lead_class=opts.lead_class,
         )
     else:
         raise InputError(
@@ -152,15 +156,14 @@ def build_chain(opts: ConvertOptions) -> MeasurementChain:
     meter = None
     if opts.meter_accuracy_pct is not None:
         meter = MeterSpec(*opts.meter_accuracy_pct, range_ohm=opts.meter_range_ohm)
-    elif opts.meter_range_ohm is not None:
-        raise InputError("--meter-range only qualifies --meter-accuracy; give the accuracy too")
     adc = None
     if opts.adc_bits is not None or opts.reference_ohm is not None:
         if opts.adc_bits is None or opts.reference_ohm is None:
             raise InputError("a ratiometric board needs both --adc-bits and --reference-ohms")
         adc = AdcSpec(opts.adc_bits, opts.reference_ohm, opts.reference_tolerance_pct)
     return chain_of(curve, tolerance=tol, calibration=cal, dissipation_w_per_k=opts.dissipation_w_per_k,
-             leads=_leads(opts), current_a=opts.current_a, voltage_v=opts.voltage_v, meter=meter, adc=adc)
+             leads=_leads(opts), current_a=opts.current_a, voltage_v=opts.voltage_v, meter=meter, adc=adc,
+             range_ohm=opts.meter_range_ohm)
 
 
 def _num(x: float) -> float | None:
@@ -238,8 +241,10 @@ def describe_chain(chain: MeasurementChain) -> list[str]:
         what = (
             f"{cond.fixed_ohm:g} ohm per conductor"
             if cond is not None and cond.fixed_ohm is not None
-            else f"copper {cond.cross_section_mm2:.4g} mm², {cond.inside_length_m:g} m inside + "
-            f"{cond.outside_length_m:g} m outside"
+            else f"copper {cond.cross_section_mm2:.4g} mm²"
+            + (f" IEC 60228 class {cond.lead_class} (×{cond.class_factor:.4f} nominal, ±{cond.class_spread:.1%})"
+               if cond.lead_class is not None else "")
+            + f", {cond.inside_length_m:g} m inside + {cond.outside_length_m:g} m outside"
             if cond is not None
             else "?"
         )
@@ -257,6 +262,8 @@ def describe_chain(chain: MeasurementChain) -> list[str]:
         lines.append(f"meter      ±({m.pct_reading:g} % of reading + {m.pct_range:g} % of range), {rng}")
     elif chain.adc is None:
         lines.append("meter      taken as ideal (give --meter-accuracy to include it)")
+    if chain.full_scale_ohm is not None:
+        lines.append(f"range      readings above {chain.full_scale_ohm:g} ohm are over range (no temperature)")
     if chain.adc is not None:
         a = chain.adc
         lines.append(

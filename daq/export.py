@@ -14,7 +14,7 @@ from soaklog.store import StoreReader, iso_utc
 
 __all__ = ["export_run", "parse_time"]
 
-CSV_HEADER = ["t_utc", "channel", "raw", "raw_unit", "temperature_c", "uncertainty_c_k2", "status"]
+CSV_HEADER = ["t_utc", "t_ms", "channel", "raw", "raw_unit", "temperature_c", "uncertainty_c_k2", "status", "flags"]
 
 
 def parse_time(text: str) -> int:
@@ -48,22 +48,25 @@ def export_run(
     n = 0
     writer = csv.writer(out, lineterminator="\n") if fmt == "csv" else None
     if writer is not None:
-        out.write(f"# soaklog export: run {run.id} {run.name} station {run.station}; times UTC (ISO 8601); "
-                  "raw in raw_unit; temperature in degC; uncertainty_c_k2 = expanded uncertainty, k = 2, in K\n")
+        out.write(f"# soaklog export: run {run.id} {run.name} station {run.station}; times UTC (ISO 8601; "
+                  "t_ms the same instant in ms since the Unix epoch); raw in raw_unit; temperature in degC; "
+                  "uncertainty_c_k2 = expanded uncertainty, k = 2, in K (empty where withheld: see flags); "
+                  "flags = the reading's flag names, comma-separated as in readings_v\n")
         writer.writerow(CSV_HEADER)
     for chunk in store.iter_readings(run.id, from_ms=from_ms, to_ms=to_ms):
         rows = zip(chunk.t_ms, chunk.channel, chunk.raw, chunk.raw_unit, chunk.temperature_c, chunk.uncertainty_c,
-                   chunk.status, strict=True)
-        for t_ms, ch, raw, unit, temp, u, status in rows:
+                   chunk.status, chunk.flags, strict=True)
+        for t_ms, ch, raw, unit, temp, u, status, flags in rows:
             if writer is not None:
                 writer.writerow([
-                    iso_utc(t_ms), ch, "" if raw is None else repr(raw), unit,
+                    iso_utc(t_ms), t_ms, ch, "" if raw is None else repr(raw), unit,
                     "" if temp is None else f"{temp:.6f}", "" if u is None else f"{u:.4f}", status,
+                    ",".join(flags),
                 ])
             else:
                 out.write(json.dumps({
-                    "t_utc": iso_utc(t_ms), "channel": ch, "raw": raw, "raw_unit": unit,
-                    "temperature_c": temp, "uncertainty_c": u, "status": status,
+                    "t_utc": iso_utc(t_ms), "t_ms": t_ms, "channel": ch, "raw": raw, "raw_unit": unit,
+                    "temperature_c": temp, "uncertainty_c": u, "status": status, "flags": flags,
                 }) + "\n")
         n += len(chunk)
         if progress is not None and span is not None and len(chunk):

@@ -28,7 +28,9 @@ __all__ = ["ChannelPipeline", "Pipeline", "SHORT_FRACTION"]
 #: practice, no published source)
 SHORT_FRACTION = 0.5
 
+#: the status of a reading whose temperature a flag withholds (the first that applies wins)
 _WITHHELD_STATUS = (
+    (Flag.OVER_RANGE, "overload"),
     (Flag.LEADS_EXCEED_SENSOR, "short"),
     (Flag.INVALID_INPUT, "invalid"),
     (Flag.OUT_OF_RANGE, "out_of_range"),

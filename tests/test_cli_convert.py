@@ -98,3 +98,43 @@ def test_human_table_has_units_and_flags():
     assert "100.0000" in p.stdout
     assert "out_of_range" in p.stdout
     assert "sensor_tolerance" in p.stdout  # the budget breakdown
+
+
+def test_a_negative_value_after_an_option_is_a_value():
+    # the README writes --cal-span -50,150; argparse alone takes "-50,150" for an option
+    p = soaklog("convert", "138.5055", "--cal-uncertainty", "0.1", "--cal-span", "-50,150", "--json")
+    assert p.returncode == 0, p.stderr
+    (rec,) = json.loads(p.stdout)
+    assert rec["flags"] == []  # 100 °C is inside -50…150
+    p = soaklog("convert", "60.2558", "--cal-uncertainty", "0.1", "--cal-span", "-50,150", "--json")
+    # IEC 60751:2008 table 1: -100 °C -> 60.26 ohm: outside the span
+    assert json.loads(p.stdout)[0]["flags"] == ["calibration_extrapolated"]
+
+
+def test_over_the_meter_range_gives_null_and_flag():
+    # 148 ohm on a 100 ohm range: above the 120 % a meter shows (common practice, no published source)
+    p = soaklog("convert", "119", "148", "--meter-range", "100", "--class", "B", "--json")
+    assert p.returncode == 0, p.stderr
+    ok, over = json.loads(p.stdout)
+    assert ok["flags"] == [] and ok["temperature_c"] is not None
+    assert over["flags"] == ["over_range"]
+    assert over["temperature_c"] is None and over["expanded_uncertainty_c"] is None
+
+
+def test_no_sensor_spec_gives_a_temperature_and_no_uncertainty():
+    p = soaklog("convert", "138.5055", "--json")
+    (rec,) = json.loads(p.stdout)
+    assert rec["temperature_c"] == pytest.approx(100.0, abs=1e-4)  # IEC 60751:2008 table 1: 138.51 ohm
+    assert rec["expanded_uncertainty_c"] is None and rec["flags"] == ["no_sensor_spec"]
+
+
+def test_lead_class_widens_the_lead_correction():
+    # 2-wire, 0.5 mm² class 5, 10 m: midway between nominal 10/58/0.5 and 10·39.0/1000 ohm
+    # (IEC 60028; IEC 60228 class 5 maximum from memory), two conductors
+    p = soaklog("convert", "140", "--wiring", "2", "--lead-mm2", "0.5", "--lead-class", "5",
+                "--lead-outside-m", "10", "--json")
+    assert p.returncode == 0, p.stderr
+    (rec,) = json.loads(p.stdout)
+    assert rec["lead_correction_ohms"] == pytest.approx(2 * (10 / 58 / 0.5 + 0.39) / 2, rel=1e-9)
+    bad = soaklog("convert", "140", "--wiring", "2", "--lead-awg", "24", "--lead-class", "5", "--lead-outside-m", "1")
+    assert bad.returncode == 2 and "--lead-mm2" in bad.stderr

@@ -73,7 +73,10 @@ def test_export_csv_has_iso_times_units_and_every_reading(demo_db):
     assert rows[0]["t_utc"].endswith("Z") and rows[0]["raw_unit"] == "ohm"
     p = soaklog("export", "--db", str(demo_db), "--format", "jsonl")
     first = json.loads(p.stdout.splitlines()[0])
-    assert set(first) == {"t_utc", "channel", "raw", "raw_unit", "temperature_c", "uncertainty_c", "status"}
+    assert set(first) == {"t_utc", "t_ms", "channel", "raw", "raw_unit", "temperature_c", "uncertainty_c", "status",
+                          "flags"}
+    assert isinstance(first["t_ms"], int) and isinstance(first["flags"], list)
+    assert set(rows[0]) >= {"t_ms", "flags"}
 
 
 def test_status_of_a_missing_database_says_what_to_do(tmp_path):

@@ -44,7 +44,8 @@ def new_run(store, config="[station]\nname = 'a'\n", channels=("t1", "t2")):
 def test_public_views_have_the_contract_columns(store):
     # DESIGN.md database contract
     cols = [r[1] for r in store.connection.execute("PRAGMA table_info(readings_v)")]
-    assert cols == ["run_id", "channel", "t_utc", "raw", "raw_unit", "temperature_c", "uncertainty_c", "status"]
+    assert cols == ["run_id", "channel", "t_utc", "t_ms", "raw", "raw_unit", "temperature_c", "uncertainty_c",
+                    "status", "flags"]
     cols = [r[1] for r in store.connection.execute("PRAGMA table_info(events_v)")]
     assert cols == ["run_id", "t_utc", "kind", "channel", "severity", "message"]
     cols = [r[1] for r in store.connection.execute("PRAGMA table_info(runs)")]
@@ -236,3 +237,55 @@ def test_a_locked_file_is_a_storage_error_for_every_write(tmp_path):
     w.write(info.run_id, batch([ids["t1"]], [T0], [1.0]))  # and all is well once it lets go
     assert w.latest(info.run_id)[0].temperature_c == 1.0
     w.close()
+
+
+def test_readings_view_names_every_flag_and_withholds_what_it_must(store):
+    from soaklog.sensors.flags import Flag
+
+    info, ids = new_run(store)
+    flags = [0, int(Flag.NO_SENSOR_SPEC), int(Flag.OUTSIDE_CLASS_RANGE | Flag.LARGE_SELF_HEATING),
+             int(Flag.OVER_RANGE)]
+    b = SampleBatch(
+        np.full(4, ids["t1"], dtype=np.int64), np.arange(4, dtype=np.int64) * 1000 + T0,
+        np.array([138.5, 138.5, 250.0, 148.0]), np.array([100.0, 100.0, 420.0, np.nan]),
+        np.array([0.25, np.nan, 3.5, np.nan]),
+        np.array([0, 0, 0, STATUS_CODES["overload"]], dtype=np.int64), np.array(flags, dtype=np.int64),
+    )
+    store.write(info.run_id, b)
+    rows = store.connection.execute(
+        "SELECT t_ms, typeof(t_ms), temperature_c, uncertainty_c, status, flags FROM readings_v ORDER BY t_ms"
+    ).fetchall()
+    assert [r[0] for r in rows] == [T0, T0 + 1000, T0 + 2000, T0 + 3000] and rows[0][1] == "integer"
+    assert rows[0][3:] == (0.25, "ok", "")
+    # no sensor specification: a temperature, but no uncertainty (NULL, never 0) and the flag that says why
+    assert rows[1][2] == pytest.approx(100.0) and rows[1][3] is None and rows[1][5] == "no_sensor_spec"
+    assert rows[2][5] == "outside_class_range,large_self_heating"  # bit order, as convert --json lists them
+    assert rows[3][2:] == (None, None, "overload", "over_range")
+    # the export's reader gives the same names, as lists
+    (chunk,) = list(store.iter_readings(info.run_id))
+    assert chunk.flags == [[], ["no_sensor_spec"], ["outside_class_range", "large_self_heating"], ["over_range"]]
+
+
+def test_a_version_4_file_gains_flags_and_t_ms_and_the_migration_runs_twice(tmp_path):
+    from soaklog.store.schema import MIGRATIONS, statements
+
+    p = tmp_path / "v4.db"
+    conn = sqlite3.connect(p, isolation_level=None)
+    for version, sql in MIGRATIONS[:4]:
+        for stmt in statements(sql):
+            conn.execute(stmt)
+        conn.execute(f"PRAGMA user_version = {version}")
+    conn.execute("INSERT INTO statuses (code, name) VALUES (0, 'ok')")
+    conn.execute("INSERT INTO runs (id, started_utc, config, config_sha256) VALUES (1, 'x', 'c', 'h')")
+    conn.execute("INSERT INTO channels (id, run_id, name) VALUES (1, 1, 't1')")
+    # written by an older soaklog: flag bit 8 (no_sensor_spec) and U stored as 0
+    conn.execute(f"INSERT INTO samples (ch, t_ms, raw, temp_uc, u_e4, status, flags) VALUES (1, {T0}, 100.0, 0, 0, 0, 8)")
+    assert [r[1] for r in conn.execute("PRAGMA table_info(readings_v)")][-1] == "status"
+    conn.close()
+    for _ in range(2):
+        with StoreWriter.open(p) as s:
+            assert s.schema_version() == 5
+            row = s.connection.execute("SELECT t_ms, flags, uncertainty_c FROM readings_v").fetchone()
+            assert s.integrity_check() == "ok"
+    # the old row keeps what it was written with; its flag now shows
+    assert row == (T0, "no_sensor_spec", 0.0)

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import re
 import sys
 from collections.abc import Callable
 
@@ -22,8 +23,23 @@ SAFETY_NOTE = (
 Subparsers = argparse._SubParsersAction  # type: ignore[type-arg]
 
 
+#: a number or a comma-separated list of numbers that starts with a minus sign
+#: (``-50``, ``-50,150``, ``-1.5e-3,2``): a value, never an option
+_NEGATIVE_VALUES = re.compile(r"^-(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?(?:,\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)*$")
+
+
 class Parser(argparse.ArgumentParser):
-    """argparse with the project's exit status for bad usage (2) and a one-line message."""
+    """argparse with the project's exit status for bad usage (2) and a one-line message.
+
+    A value that starts with a minus sign and is made of numbers
+    (``--cal-span -50,150``) is taken as a value: argparse alone takes
+    ``-50,150`` for an unknown option.
+    """
+
+    def _parse_optional(self, arg_string: str):  # type: ignore[no-untyped-def]
+        if _NEGATIVE_VALUES.match(arg_string):
+            return None
+        return super()._parse_optional(arg_string)
 
     def error(self, message: str) -> None:  # type: ignore[override]
         self.exit(2, f"{self.prog}: {message} (see {self.prog} --help)\n")

@@ -55,6 +55,9 @@ def add_parser(sub: Subparsers) -> None:
                    help="resistance of ONE conductor (2-wire subtracts both)")
     g.add_argument("--lead-awg", metavar="GAUGE", help="copper conductor gauge, AWG (e.g. 24)")
     g.add_argument("--lead-mm2", type=positive("mm²"), metavar="MM2", help="copper conductor cross-section in mm²")
+    g.add_argument("--lead-class", type=int, choices=(1, 2, 5), metavar="1|2|5",
+                   help="IEC 60228 conductor class of --lead-mm2 (1 solid, 2 stranded, 5 flexible): the lead is "
+                        "taken between the nominal resistivity and the class's maximum")
     g.add_argument("--lead-inside-m", type=nonneg("m"), default=0.0, metavar="M",
                    help="conductor length inside the chamber (at chamber temperature)")
     g.add_argument("--lead-outside-m", type=nonneg("m"), default=0.0, metavar="M",
@@ -74,7 +77,9 @@ def add_parser(sub: Subparsers) -> None:
     g.add_argument("--meter-accuracy", type=floats(2, "PCT_READING,PCT_RANGE"), metavar="PCT_RDG,PCT_RNG",
                    help="meter ohms accuracy ±(%% of reading + %% of range), e.g. 0.01,0.004 (default: ideal)")
     g.add_argument("--meter-range", type=positive("ohm"), metavar="OHMS",
-                   help="meter range in ohm (default: the decade range holding the reading)")
+                   help="the meter's fixed range in ohm: a reading above 120 %% of it is over range (no "
+                        "temperature), and --meter-accuracy's %% of range is of it (default: the decade range "
+                        "holding the reading)")
     g.add_argument("--adc-bits", type=int, metavar="N", help="ratiometric board: converter resolution in bits")
     g.add_argument("--reference-ohms", type=positive("ohm"), metavar="OHMS", help="ratiometric board: reference resistor")
     g.add_argument("--reference-tolerance-pct", type=nonneg("%"), default=0.0, metavar="PCT",
@@ -108,6 +113,7 @@ def run(args: argparse.Namespace) -> int:
         lead_ohm=args.lead_ohms,
         lead_awg=args.lead_awg,
         lead_mm2=args.lead_mm2,
+        lead_class=args.lead_class,
         lead_inside_m=args.lead_inside_m,
         lead_outside_m=args.lead_outside_m,
         imbalance_ohm=args.imbalance_ohms,
@@ -151,10 +157,11 @@ _FLAG_HELP = {
     "out_of_range": "outside the curve's range (IEC 60751: −200…850 °C); no temperature given",
     "invalid_input": "not a usable resistance; no temperature given",
     "outside_class_range": "the tolerance class does not apply at this temperature; its bound is used as an estimate",
-    "no_sensor_spec": "no --class or --cal-uncertainty: the uncertainty covers the measurement only, not the sensor",
+    "no_sensor_spec": "no --class or --cal-uncertainty: no uncertainty is given (its budget would leave out the sensor)",
     "calibration_extrapolated": "outside the span of the calibration points",
     "large_self_heating": "self-heating correction above 0.1 K: lower the current or check the dissipation constant",
     "leads_exceed_sensor": "the lead correction is at least the measured value; no temperature given",
+    "over_range": "above what the meter's range can show (120 % of --meter-range); no temperature given",
 }
 
 
@@ -204,8 +211,11 @@ def _budget_table(rec: dict[str, Any]) -> str:
         )
         for c in rec["budget"]
     ]
-    rows.append(("combined u_c", "", "", "", "", f"{rec['standard_uncertainty_c']:.4f}", "root-sum-square"))
-    rows.append(("expanded U", "", "", "", "", f"{rec['expanded_uncertainty_c']:.4f}", "k = 2"))
+    if rec["expanded_uncertainty_c"] is None:
+        rows.append(("expanded U", "", "", "", "", "—", "withheld: " + ", ".join(rec["flags"])))
+    else:
+        rows.append(("combined u_c", "", "", "", "", f"{rec['standard_uncertainty_c']:.4f}", "root-sum-square"))
+        rows.append(("expanded U", "", "", "", "", f"{rec['expanded_uncertainty_c']:.4f}", "k = 2"))
     widths = [max(len(r[i]) for r in [head, *rows]) for i in range(len(head) - 1)]
     lines = [title]
     for r in [head, *rows]:

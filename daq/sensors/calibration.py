@@ -25,7 +25,7 @@ import numpy.typing as npt
 
 from soaklog.errors import CalibrationError
 from soaklog.sensors.cvd import IEC_60751, CvdCurve, resistance, slope
-from soaklog.sensors.flags import FLAG_DTYPE, Flag
+from soaklog.sensors.flags import FLAG_DTYPE, Flag, within
 
 __all__ = ["CalibrationFit", "fit_cvd"]
 
@@ -89,9 +89,8 @@ class CalibrationFit:
         return 4 if self.fitted_c else 3
 
     def in_span(self, t_c: npt.ArrayLike) -> npt.NDArray[np.bool_]:
-        """Whether ``t_c`` lies within the span of the calibration points (NaN does not)."""
-        t = np.asarray(t_c, dtype=np.float64)
-        return (t >= self.t_min_c) & (t <= self.t_max_c)
+        """Whether ``t_c`` lies within the span of the calibration points, ends inclusive (NaN does not)."""
+        return within(t_c, self.t_min_c, self.t_max_c)
 
     def extrapolation_flags(self, t_c: npt.ArrayLike) -> npt.NDArray[np.uint16]:
         """``Flag.CALIBRATION_EXTRAPOLATED`` where ``t_c`` lies outside the span, else 0.
@@ -100,7 +99,7 @@ class CalibrationFit:
         conversion that produced them, with its own flag.
         """
         t = np.asarray(t_c, dtype=np.float64)
-        outside = (t < self.t_min_c) | (t > self.t_max_c)
+        outside = ~np.isnan(t) & ~within(t, self.t_min_c, self.t_max_c)
         return np.where(outside, FLAG_DTYPE(Flag.CALIBRATION_EXTRAPOLATED), FLAG_DTYPE(0)).astype(
             FLAG_DTYPE
         )

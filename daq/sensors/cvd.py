@@ -23,7 +23,7 @@ import numpy.typing as npt
 
 from soaklog.sensors.flags import FLAG_DTYPE, Flag
 
-__all__ = ["CvdCurve", "IEC_60751", "resistance", "temperature", "slope"]
+__all__ = ["CvdCurve", "IEC_60751", "resistance", "temperature", "slope", "inclusive_bounds", "EDGE_ULPS"]
 
 FloatArray = npt.NDArray[np.float64]
 
@@ -32,6 +32,20 @@ FloatArray = npt.NDArray[np.float64]
 _CHUNK = 1 << 16
 _NEWTON_TOL_C = 1e-10
 _NEWTON_MAX = 12
+
+
+#: how many units in the last place a value may lie beyond a range's end and
+#: still count as the end itself: a table value typed in decimal, or computed
+#: another way, differs from the float of the same point by a few rounding steps
+EDGE_ULPS = 4
+
+
+def inclusive_bounds(lo: float, hi: float, ulps: int = EDGE_ULPS) -> tuple[float, float]:
+    """``lo`` and ``hi`` widened outwards by ``ulps`` units in the last place (a range's ends inclusive)."""
+    for _ in range(ulps):
+        lo = float(np.nextafter(lo, -np.inf))
+        hi = float(np.nextafter(hi, np.inf))
+    return lo, hi
 
 
 @dataclass(frozen=True)
@@ -142,10 +156,12 @@ def temperature(
     flags = np.zeros(n, dtype=FLAG_DTYPE)
 
     a, b, c, r0 = curve.a, curve.b, curve.c, curve.r0_ohm
-    # the range is checked on the resistance itself, so that R(t_min) and
-    # R(t_max) are inside for any R0, whatever the rounding of R/R0
-    r_min = float(resistance(curve.t_min_c, curve))
-    r_max = float(resistance(curve.t_max_c, curve))
+    # the range is checked on the resistance itself, inclusive within a few
+    # ulps: R(t_max) written as a decimal (390.481125 ohm at 850 °C) may lie a
+    # rounding step above the float the polynomial gives; such a value reads
+    # t_max itself (clamped below), never a number outside the range
+    r_min, r_max = inclusive_bounds(float(resistance(curve.t_min_c, curve)),
+                                    float(resistance(curve.t_max_c, curve)))
     a2 = a * a
     b4 = 4.0 * b
     inv_r0 = 1.0 / r0
@@ -175,6 +191,7 @@ def temperature(
                 neg = np.flatnonzero((xs < 0.0) & good)
                 if neg.size:
                     out[neg] = _newton_below_zero(out[neg], xs[neg], a, b, c)
+            np.clip(out, curve.t_min_c, curve.t_max_c, out=out)
             if not good.all():
                 idx = np.flatnonzero(~good)
                 out[idx] = np.nan

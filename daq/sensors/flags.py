@@ -12,7 +12,7 @@ from collections.abc import Iterable
 import numpy as np
 import numpy.typing as npt
 
-__all__ = ["Flag", "FLAG_DTYPE", "WITHHOLDING", "flag_names", "empty_flags"]
+__all__ = ["Flag", "FLAG_DTYPE", "WITHHOLDING", "WITHHOLDING_UNCERTAINTY", "EDGE_TOL_K", "within", "flag_names", "empty_flags"]
 
 FLAG_DTYPE = np.uint16
 
@@ -34,6 +34,8 @@ class Flag(enum.IntFlag):
     """The self-heating correction exceeds 0.1 K (common practice, no published source)."""
     LEADS_EXCEED_SENSOR = 1 << 6
     """The lead correction is larger than what was measured; no temperature."""
+    OVER_RANGE = 1 << 7
+    """Above what the instrument's range can measure (a fixed range and its over-range); no temperature."""
 
     @property
     def label(self) -> str:
@@ -41,7 +43,24 @@ class Flag(enum.IntFlag):
 
 
 #: flags that mean the value is withheld (NaN) rather than qualified
-WITHHOLDING = Flag.OUT_OF_RANGE | Flag.INVALID_INPUT | Flag.LEADS_EXCEED_SENSOR
+WITHHOLDING = Flag.OUT_OF_RANGE | Flag.INVALID_INPUT | Flag.LEADS_EXCEED_SENSOR | Flag.OVER_RANGE
+
+#: flags that leave the temperature but withhold its uncertainty (NaN, never 0):
+#: the configuration does not say enough to state one honestly
+WITHHOLDING_UNCERTAINTY = Flag.NO_SENSOR_SPEC
+
+
+#: a temperature this close to the end of a class's or a calibration's span counts as
+#: inside it: the inverse of an equation lands a rounding step (about 1e-13 K) beside
+#: the end (R(500 °C) = 280.9775 ohm reads 500.00000000000006 °C), and a nanokelvin
+#: is far below anything a thermometer resolves
+EDGE_TOL_K = 1e-9
+
+
+def within(t_c: npt.ArrayLike, lo_c: float, hi_c: float) -> npt.NDArray[np.bool_]:
+    """Whether ``t_c`` lies in [lo_c, hi_c], ends inclusive within ``EDGE_TOL_K`` (NaN does not)."""
+    t = np.asarray(t_c, dtype=np.float64)
+    return (t >= lo_c - EDGE_TOL_K) & (t <= hi_c + EDGE_TOL_K)
 
 
 def empty_flags(shape: int | tuple[int, ...]) -> npt.NDArray[np.uint16]:

@@ -45,6 +45,8 @@ __all__ = [
     "copper_resistance_ohm",
     "Conductor",
     "Leads",
+    "IEC_60228_MAX_OHM_PER_KM",
+    "iec_60228_max_ohm_per_m",
 ]
 
 FloatArray = npt.NDArray[np.float64]
@@ -78,6 +80,38 @@ DEFAULT_THREE_WIRE_IMBALANCE = 0.05
 # (IEC 60751: −200…850 °C); outside it a lead temperature is a mistake.
 _LEAD_T_MIN_C = -200.0
 _LEAD_T_MAX_C = 850.0
+
+# IEC 60228 (conductors of insulated cables), tables 1 to 3: the MAXIMUM resistance
+# at 20 °C of plain annealed copper conductors, in ohm/km, by nominal cross-section
+# in mm² and conductor class (1 solid, 2 stranded, 5 flexible). From memory of
+# IEC 60228:2004, not checked against the document here: the ratios to the nominal
+# 1/58 ohm·mm²/m (about 1.05 for classes 1 and 2, 1.13 for class 5) are what the
+# correction uses, and they are the well-known part; check a value before
+# relying on it for a specific cable.
+IEC_60228_MAX_OHM_PER_KM: dict[int, dict[float, float]] = {
+    1: {0.5: 36.0, 0.75: 24.5, 1.0: 18.1, 1.5: 12.1, 2.5: 7.41, 4.0: 4.61, 6.0: 3.08, 10.0: 1.83},
+    2: {0.5: 36.0, 0.75: 24.5, 1.0: 18.1, 1.5: 12.1, 2.5: 7.41, 4.0: 4.61, 6.0: 3.08, 10.0: 1.83},
+    5: {0.5: 39.0, 0.75: 26.0, 1.0: 19.5, 1.5: 13.3, 2.5: 7.98, 4.0: 4.95, 6.0: 3.30, 10.0: 1.91},
+}
+
+
+def iec_60228_max_ohm_per_m(lead_class: int, area_mm2: float) -> float:
+    """The IEC 60228 maximum resistance at 20 °C, ohm/m, of a class 1, 2 or 5 copper conductor.
+
+    Raises:
+        InputError: a class other than 1, 2, 5, or a cross-section that is
+            not one of the class's nominal sizes.
+    """
+    table = IEC_60228_MAX_OHM_PER_KM.get(lead_class) if not isinstance(lead_class, bool) else None
+    if table is None:
+        raise InputError(f"IEC 60228 conductor class must be 1 (solid), 2 (stranded) or 5 (flexible), "
+                         f"got {lead_class!r}")
+    for size, ohm_per_km in table.items():
+        if math.isclose(size, float(area_mm2), rel_tol=1e-9):
+            return ohm_per_km / 1000.0
+    raise InputError(f"{area_mm2!r} mm² is not a nominal IEC 60228 size; give one of "
+                     f"{', '.join(f'{a:g}' for a in table)} mm²")
+
 
 _AWG_MIN = -3  # 0000 (4/0)
 _AWG_MAX = 40
@@ -202,8 +236,14 @@ class Conductor:
     area_mm2: float | None = None
     inside_length_m: float = 0.0
     outside_length_m: float = 0.0
+    lead_class: int | None = None
 
     def __post_init__(self) -> None:
+        if self.lead_class is not None:
+            if self.area_mm2 is None:
+                raise InputError("an IEC 60228 conductor class applies to a metric cross-section: give area_mm2 "
+                                 "(an AWG size or a fixed resistance has no class)")
+            iec_60228_max_ohm_per_m(self.lead_class, self.area_mm2)  # raises on a bad class or size
         _finite_nonnegative(self.fixed_ohm, "conductor resistance fixed_ohm (ohm)", optional=True)
         _finite_nonnegative(self.inside_length_m, "inside_length_m (m)")
         _finite_nonnegative(self.outside_length_m, "outside_length_m (m)")
@@ -232,6 +272,29 @@ class Conductor:
                 "a copper conductor needs a length: "
                 "give inside_length_m and/or outside_length_m (m)"
             )
+
+    @property
+    def class_factor(self) -> float:
+        """The conductor's resistance over the nominal copper's: 1, or the middle of nominal…IEC 60228 maximum.
+
+        With a class given, the real conductor lies somewhere between the
+        nominal resistivity (1/58 ohm·mm²/m over the nominal area) and the
+        class's maximum (stranded and flexible conductors are made to that
+        maximum, up to about 13 % above nominal for class 5): the correction
+        takes the middle and ``class_spread`` the half-width.
+        """
+        if self.lead_class is None or self.area_mm2 is None:
+            return 1.0
+        nominal = COPPER_RESISTIVITY_20C_OHM_MM2_PER_M / self.area_mm2
+        return 0.5 * (1.0 + iec_60228_max_ohm_per_m(self.lead_class, self.area_mm2) / nominal)
+
+    @property
+    def class_spread(self) -> float:
+        """Half-width of nominal…maximum as a fraction of the middle (0 without a class)."""
+        if self.lead_class is None or self.area_mm2 is None:
+            return 0.0
+        f = self.class_factor
+        return (f - 1.0) / f
 
     @classmethod
     def fixed(cls, ohm: float) -> Conductor:
@@ -269,7 +332,8 @@ class Conductor:
         if self.fixed_ohm is not None:
             return np.full(shape, self.fixed_ohm, dtype=np.float64)
         area = self.cross_section_mm2
-        outside = copper_resistance_ohm(self.outside_length_m, area, ambient)
+        factor = self.class_factor
+        outside = factor * copper_resistance_ohm(self.outside_length_m, area, ambient)
         if self.inside_length_m == 0:
             return np.broadcast_to(outside, shape).astype(np.float64)
         if chamber is None:
@@ -277,7 +341,7 @@ class Conductor:
                 f"the conductor runs {self.inside_length_m:g} m inside the chamber; give chamber_c "
                 "(the chamber temperature in °C, e.g. the sensor's reading)"
             )
-        inside = copper_resistance_ohm(self.inside_length_m, area, chamber)
+        inside = factor * copper_resistance_ohm(self.inside_length_m, area, chamber)
         return np.asarray(inside + outside, dtype=np.float64)
 
 
@@ -377,11 +441,13 @@ class Leads:
         """Half-width in ohm of the rectangular residual left after the correction.
 
         The uncertainty budget takes bound/√3 as the standard uncertainty
-        (JCGM 100:2008, 4.3.7). 2-wire: ``tolerance`` · 2·R_c; 3-wire:
-        ``imbalance_fraction`` · R_c; 4-wire: 0.
+        (JCGM 100:2008, 4.3.7). 2-wire: (``tolerance`` + the conductor's
+        IEC 60228 class spread) · 2·R_c; 3-wire: ``imbalance_fraction`` · R_c
+        (the two conductors of one cable share their class); 4-wire: 0.
         """
         if self.wiring == 2:
-            return self.tolerance * 2.0 * self._one_conductor_ohm(chamber_c, ambient_c)
+            spread = 0.0 if self.conductor is None else self.conductor.class_spread
+            return (self.tolerance + spread) * 2.0 * self._one_conductor_ohm(chamber_c, ambient_c)
         if self.wiring == 3:
             return self.imbalance_fraction * self._one_conductor_ohm(chamber_c, ambient_c)
         return np.zeros(self._shape(chamber_c, ambient_c), dtype=np.float64)

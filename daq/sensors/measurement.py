@@ -22,7 +22,7 @@ import numpy.typing as npt
 from soaklog.errors import InputError
 from soaklog.sensors import selfheating
 from soaklog.sensors.cvd import IEC_60751, CvdCurve, slope, temperature
-from soaklog.sensors.flags import FLAG_DTYPE, Flag
+from soaklog.sensors.flags import FLAG_DTYPE, WITHHOLDING_UNCERTAINTY, Flag, within
 from soaklog.sensors.leads import Leads
 from soaklog.sensors.tolerance import ToleranceClass
 from soaklog.sensors.uncertainty import Budget, Contribution, combine, normal, rectangular
@@ -37,10 +37,16 @@ __all__ = [
     "chain_of",
     "Conversion",
     "LARGE_SELF_HEATING_K",
+    "OVER_RANGE_FRACTION",
     "decade_range_ohm",
 ]
 
 FloatArray = npt.NDArray[np.float64]
+
+#: a fixed range reads up to this fraction above its nominal value before the meter
+#: reports an overload: most bench DMMs show 120 % of range (common practice, no
+#: published source; ``decade_range_ohm`` assumes the same)
+OVER_RANGE_FRACTION = 0.2
 
 #: a self-heating correction above this is flagged: the dissipation constant is
 #: rarely known better than a factor of two in a real mounting
@@ -207,25 +213,49 @@ class Conversion:
     budget: Budget
 
     @property
+    def uncertainty_withheld(self) -> npt.NDArray[np.bool_]:
+        """Where no uncertainty can be stated: no temperature, or a flag saying the budget lacks a part."""
+        return np.isnan(self.temperature_c) | ((self.flags & FLAG_DTYPE(WITHHOLDING_UNCERTAINTY)) != 0)
+
+    @property
     def uncertainty_c(self) -> FloatArray:
-        """Combined standard uncertainty u_c in K (NaN where no temperature)."""
-        return np.where(np.isnan(self.temperature_c), np.nan, self.budget.combined_k)
+        """Combined standard uncertainty u_c in K (NaN where withheld: never a 0 that means "unknown")."""
+        return np.where(self.uncertainty_withheld, np.nan, self.budget.combined_k)
 
     @property
     def expanded_uncertainty_c(self) -> FloatArray:
-        """U = k·u_c, k = 2, in K (NaN where no temperature)."""
-        return np.where(np.isnan(self.temperature_c), np.nan, self.budget.expanded_k)
+        """U = k·u_c, k = 2, in K (NaN where withheld)."""
+        return np.where(self.uncertainty_withheld, np.nan, self.budget.expanded_k)
 
 
 @dataclass(frozen=True)
 class MeasurementChain:
-    """Everything between the meter's number and a temperature, for one channel."""
+    """Everything between the meter's number and a temperature, for one channel.
+
+    ``range_ohm`` is the fixed ohms range the readings are taken on (None:
+    not known, or autorange); a reading above it by more than the usual
+    over-range (``OVER_RANGE_FRACTION``) is withheld with ``Flag.OVER_RANGE``.
+    Without it, the range of ``meter`` is used when that gives one.
+    """
 
     sensor: SensorSpec = field(default_factory=SensorSpec)
     leads: Leads = field(default_factory=lambda: Leads(wiring=4))
     excitation: Excitation | None = None
     meter: MeterSpec | None = None
     adc: AdcSpec | None = None
+    range_ohm: float | None = None
+
+    def __post_init__(self) -> None:
+        if self.range_ohm is not None and not (np.isfinite(self.range_ohm) and self.range_ohm > 0):
+            raise InputError(f"meter range must be a positive resistance, got {self.range_ohm!r} ohm")
+
+    @property
+    def full_scale_ohm(self) -> float | None:
+        """The largest reading the range can give (range plus over-range), or None when not known."""
+        rng = self.range_ohm
+        if rng is None and self.meter is not None:
+            rng = self.meter.range_ohm
+        return None if rng is None else rng * (1.0 + OVER_RANGE_FRACTION)
 
     def convert(
         self,
@@ -266,6 +296,12 @@ class MeasurementChain:
         r_s = r_m - corr
         leads_bad = np.isfinite(r_m) & (r_m > 0) & ~(r_s > 0)
         flags[leads_bad] |= FLAG_DTYPE(Flag.LEADS_EXCEED_SENSOR)
+        full_scale = self.full_scale_ohm
+        if full_scale is not None:
+            # a number above what the range can show is not a measurement of the sensor
+            over = np.isfinite(r_m) & (r_m > full_scale)
+            flags[over] |= FLAG_DTYPE(Flag.OVER_RANGE)
+            leads_bad = leads_bad | over
 
         # 2. Callendar–Van Dusen inverse
         t_ind, cvd_flags = temperature(np.where(leads_bad, np.nan, r_s), curve)
@@ -328,7 +364,7 @@ class MeasurementChain:
                     "K",
                 )
             )
-            outside = (t < cal.t_min_c) | (t > cal.t_max_c)
+            outside = ~np.isnan(t) & ~within(t, cal.t_min_c, cal.t_max_c)
             flags[outside] |= FLAG_DTYPE(Flag.CALIBRATION_EXTRAPOLATED)
         elif tol is not None:
             out.append(
@@ -411,10 +447,11 @@ def chain_of(
     voltage_v: float | None = None,
     meter: MeterSpec | None = None,
     adc: AdcSpec | None = None,
+    range_ohm: float | None = None,
 ) -> MeasurementChain:
     """One channel's chain from its parts (the one place a station channel and ``soaklog convert`` build it)."""
     excitation = None
     if current_a is not None or voltage_v is not None:
         excitation = Excitation(current_a, voltage_v)
     sensor = SensorSpec(curve, tolerance, calibration, dissipation_w_per_k)
-    return MeasurementChain(sensor, leads if leads is not None else Leads(4), excitation, meter, adc)
+    return MeasurementChain(sensor, leads if leads is not None else Leads(4), excitation, meter, adc, range_ohm)

@@ -15,6 +15,7 @@ import numpy as np
 import numpy.typing as npt
 
 from soaklog.errors import InputError
+from soaklog.sensors.flags import within
 
 __all__ = ["ToleranceClass", "TOLERANCE_CLASSES", "tolerance_class", "class_names"]
 
@@ -38,9 +39,8 @@ class ToleranceClass:
         return self.a_c + self.b_per_c * np.abs(t)
 
     def in_range(self, t_c: npt.ArrayLike) -> npt.NDArray[np.bool_]:
-        """Whether the class applies at ``t_c`` (NaN is not in range)."""
-        t = np.asarray(t_c, dtype=np.float64)
-        return (t >= self.t_min_c) & (t <= self.t_max_c)
+        """Whether the class applies at ``t_c``, ends inclusive (NaN is not in range)."""
+        return within(t_c, self.t_min_c, self.t_max_c)
 
     def describe(self) -> str:
         return (

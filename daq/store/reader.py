@@ -7,6 +7,7 @@ what could not be read and from which file.
 
 from __future__ import annotations
 
+import functools
 import json
 import math
 import sqlite3
@@ -331,20 +332,21 @@ class StoreReader:
         cursor = lo
         while cursor < hi:
             rows = self._conn.execute(
-                f"SELECT rowid, ch, t_ms, raw, temp_uc, u_e4, status FROM samples WHERE rowid >= ? AND rowid < ? "
+                f"SELECT rowid, ch, t_ms, raw, temp_uc, u_e4, status, flags FROM samples WHERE rowid >= ? AND rowid < ? "
                 f"AND ch IN ({ids}) AND t_ms >= ? AND t_ms <= ? ORDER BY rowid LIMIT ?",
                 (cursor, hi, lo_ms, hi_ms, batch),
             ).fetchall()
             if not rows:
                 return
             cursor = int(rows[-1][0]) + 1
-            _rid, ch, t, raw, temp, u, st = zip(*rows, strict=True)
+            _rid, ch, t, raw, temp, u, st, fl = zip(*rows, strict=True)
             info = [chans[c] for c in ch]
             yield ReadingChunk(
                 t_ms=list(t), channel=[c.name for c in info], raw=list(raw), raw_unit=[c.raw_unit for c in info],
                 temperature_c=[None if v is None else v / TEMP_SCALE for v in temp],
                 uncertainty_c=[None if v is None else v / U_SCALE for v in u],
                 status=[status_name(s) for s in st],
+                flags=[_flag_names(f or 0) for f in fl],
             )
 
 
@@ -352,3 +354,15 @@ def _json_object(text: str | None) -> dict[str, Any]:
     """A stored JSON object (``{}`` for none, or for anything that is not an object)."""
     value = json.loads(text or "{}")
     return value if isinstance(value, dict) else {}
+
+
+@functools.lru_cache(maxsize=256)
+def _flag_names_cached(bits: int) -> tuple[str, ...]:
+    from soaklog.sensors.flags import flag_names
+
+    return tuple(flag_names(bits))
+
+
+def _flag_names(bits: int) -> list[str]:
+    """A reading's flag names (a fresh list: the caller may keep it)."""
+    return list(_flag_names_cached(int(bits)))

@@ -237,6 +237,8 @@ class ReadingChunk:
     temperature_c: list[float | None]
     uncertainty_c: list[float | None]
     status: list[str]
+    #: each reading's flag names, as ``convert --json`` gives them (``[]`` when none)
+    flags: list[list[str]]
 
     def __len__(self) -> int:
         return len(self.t_ms)

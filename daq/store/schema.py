@@ -191,6 +191,40 @@ MIGRATIONS: list[tuple[int, str]] = [
     ),
 ]
 
+# 5: the record keeps every flag. ``flag_names`` names each bit of ``samples.flags``
+# (filled from soaklog.sensors.flags at every open, as ``statuses`` is), and
+# ``readings_v`` gains the integer time ``t_ms`` and ``flags``: the names of the
+# flags a reading carries, comma-separated in bit order ('' when none), as
+# ``convert --json`` names them. Columns are CAST so that other SQL engines
+# reading the file see numbers as numbers.
+MIGRATIONS.append((
+    5,
+    f"""
+    CREATE TABLE IF NOT EXISTS flag_names (
+        bit INTEGER PRIMARY KEY,
+        name TEXT NOT NULL UNIQUE
+    );
+    DROP VIEW IF EXISTS readings_v;
+    CREATE VIEW readings_v AS
+        SELECT c.run_id AS run_id,
+               c.name AS channel,
+               {_ISO.format(col="s.t_ms")} AS t_utc,
+               CAST(s.t_ms AS INTEGER) AS t_ms,
+               CAST(s.raw AS REAL) AS raw,
+               c.raw_unit AS raw_unit,
+               CAST(s.temp_uc AS REAL) / {TEMP_SCALE}.0 AS temperature_c,
+               CAST(s.u_e4 AS REAL) / {U_SCALE}.0 AS uncertainty_c,
+               COALESCE(st.name, 'status_' || s.status) AS status,
+               CASE WHEN s.flags = 0 THEN ''
+                    ELSE COALESCE((SELECT group_concat(f.name, ',') FROM flag_names f WHERE (s.flags & f.bit) != 0),
+                                  'flags_' || s.flags)
+               END AS flags
+        FROM samples s
+        JOIN channels c ON c.id = s.ch
+        LEFT JOIN statuses st ON st.code = s.status
+    """,
+))
+
 SCHEMA_VERSION = MIGRATIONS[-1][0]
 
 

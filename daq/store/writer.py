@@ -19,6 +19,7 @@ import numpy as np
 import numpy.typing as npt
 
 from soaklog.errors import StorageError
+from soaklog.sensors.flags import Flag
 from soaklog.store.core import Transaction, connect, translated
 from soaklog.store.reader import StoreReader
 from soaklog.store.records import BATCH_FIELDS, AlarmRow, EventRow, RunInfo, SampleBatch, config_digest
@@ -62,10 +63,14 @@ class StoreWriter(StoreReader):
                     for stmt in statements(sql):
                         self._conn.execute(stmt)
                     self._conn.execute(f"PRAGMA user_version = {int(version)}")
-            # every status this soaklog knows, also those added after a file was made
+            # every status and flag this soaklog knows, also those added after a file was made
             self._conn.executemany(
                 "INSERT OR IGNORE INTO statuses (code, name) VALUES (?, ?)",
                 [(c, n) for n, c in STATUS_CODES.items()],
+            )
+            self._conn.executemany(
+                "INSERT OR IGNORE INTO flag_names (bit, name) VALUES (?, ?)",
+                [(int(f), f.label) for f in Flag],
             )
         except sqlite3.Error as exc:
             raise StorageError(f"cannot prepare database {self.path}: {exc}") from exc

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 import pytest
@@ -422,3 +423,43 @@ def test_leads_are_frozen() -> None:
     leads = Leads.from_lead_ohms(2, 0.5)
     with pytest.raises(AttributeError):
         leads.wiring = 4  # type: ignore[misc]
+
+
+# ---------------------------------------------------------------- IEC 60228 conductor classes
+
+# IEC 60228:2004 maximum resistance at 20 °C of plain copper, ohm/km (from memory of
+# tables 1-3, not checked against the document): 1.0 mm² class 1/2 18.1, class 5 19.5;
+# 0.5 mm² class 5 39.0. Nominal 1/58 ohm·mm²/m (IEC 60028) gives 17.241 ohm/km for 1 mm².
+@pytest.mark.parametrize(("lead_class", "area_mm2", "max_ohm_per_km"), [
+    (1, 1.0, 18.1), (2, 1.0, 18.1), (5, 1.0, 19.5), (5, 0.5, 39.0),
+])
+def test_a_class_takes_the_lead_between_nominal_and_its_maximum(lead_class, area_mm2, max_ohm_per_km) -> None:
+    c = Conductor(area_mm2=area_mm2, outside_length_m=10.0, lead_class=lead_class)
+    nominal_ohm = 10.0 / 58.0 / area_mm2  # IEC 60028 by hand
+    maximum_ohm = 10.0 * max_ohm_per_km / 1000.0
+    assert float(c.conductor_ohm()) == pytest.approx((nominal_ohm + maximum_ohm) / 2, rel=1e-12)
+    # the spread reaches both ends exactly
+    mid = float(c.conductor_ohm())
+    assert mid * (1 + c.class_spread) == pytest.approx(maximum_ohm, rel=1e-12)
+    assert mid * (1 - c.class_spread) == pytest.approx(nominal_ohm, rel=1e-12)
+
+
+def test_class_5_stranded_cable_at_its_maximum_is_covered_only_with_its_class() -> None:
+    # a flexible 0.5 mm² pair, 10 m, at the IEC 60228 class 5 maximum 39.0 ohm/km (from memory, above)
+    true_pair_ohm = 2 * 10.0 * 39.0 / 1000.0
+    plain = Leads(2, Conductor(area_mm2=0.5, outside_length_m=10.0))
+    classed = Leads(2, Conductor(area_mm2=0.5, outside_length_m=10.0, lead_class=5))
+    # nominal copper with the default 10 % bound: the error (13 % of the pair) is outside it
+    assert abs(true_pair_ohm - float(plain.correction_ohm())) > float(plain.bound_ohm())
+    # with the class: inside
+    assert abs(true_pair_ohm - float(classed.correction_ohm())) <= float(classed.bound_ohm())
+
+
+@pytest.mark.parametrize(("kw", "words"), [
+    ({"awg": 24, "lead_class": 5}, "metric cross-section"),
+    ({"area_mm2": 0.6, "lead_class": 5}, "not a nominal IEC 60228 size"),
+    ({"area_mm2": 0.5, "lead_class": 3}, "1 (solid), 2 (stranded) or 5"),
+])
+def test_a_class_needs_a_nominal_metric_size(kw, words) -> None:
+    with pytest.raises(InputError, match=re.escape(words)):
+        Conductor(outside_length_m=1.0, **kw)

@@ -17,6 +17,7 @@ from soaklog.sensors.measurement import (
     Calibration,
     Excitation,
     MeasurementChain,
+    MeterSpec,
     SensorSpec,
 )
 from soaklog.sensors.tolerance import tolerance_class
@@ -109,10 +110,51 @@ def test_leads_larger_than_the_reading_give_no_temperature():
     assert "out_of_range" not in flag_names(conv.flags[0])
 
 
-def test_missing_sensor_spec_is_flagged_not_hidden():
+def test_missing_sensor_spec_is_flagged_and_its_uncertainty_withheld():
     conv = MeasurementChain().convert([100.0])
     assert "no_sensor_spec" in flag_names(conv.flags[0])
-    assert conv.expanded_uncertainty_c[0] == 0.0  # an ideal meter and no sensor: nothing to add
+    assert conv.temperature_c[0] == 0.0  # the temperature stands
+    # an ideal meter and no sensor would add up to 0 K: not an honest uncertainty, so none
+    assert math.isnan(conv.expanded_uncertainty_c[0]) and math.isnan(conv.uncertainty_c[0])
+    # with a meter the budget has a part, but still not the sensor: withheld all the same
+    with_meter = MeasurementChain(meter=MeterSpec(0.01, 0.004, 1000.0)).convert([100.0])
+    assert math.isnan(with_meter.expanded_uncertainty_c[0])
+    assert with_meter.budget.expanded_k[0] > 0  # the partial budget is still there to show
+
+
+@pytest.mark.parametrize(("r0", "r_ohm"), [
+    # IEC 60751:2008, 4.2 with A = 3.9083e-3, B = -5.775e-7: R(850 °C)/R0 = 1 + 850·A + 850²·B
+    # = 3.90481125 exactly (hand arithmetic: 3.322055 - 0.41724375), written as decimals
+    (100.0, 390.481125), (500.0, 1952.405625), (1000.0, 3904.81125),
+    # R(-200 °C)/R0 with C = -4.183e-12: 1 - 0.78166 - 0.0231 + (-4.183e-12)(-300)(-8e6) = 0.1852008
+    (100.0, 18.52008), (500.0, 92.6004), (1000.0, 185.2008),
+])
+def test_the_ends_of_the_iec_range_convert(r0, r_ohm):
+    # no IEC 60751 class reaches 850 °C; a calibration over the whole range does
+    cal = Calibration(0.5, 2.0, -200.0, 850.0)
+    conv = MeasurementChain(SensorSpec(curve=IEC_60751.with_r0(r0), calibration=cal)).convert([r_ohm])
+    assert conv.flags[0] == 0, flag_names(conv.flags[0])
+    assert conv.temperature_c[0] in (850.0, -200.0)
+
+
+def test_class_range_ends_are_inclusive():
+    # IEC 60751:2008 table 4: class B (film) applies over -50…500 °C; R(500 °C) = 280.9775 ohm
+    # (1 + 500·3.9083e-3 − 250000·5.775e-7 = 2.809775, hand arithmetic)
+    conv = MeasurementChain(SensorSpec(tolerance=tolerance_class("B", "film"))).convert([280.9775])
+    assert "outside_class_range" not in flag_names(conv.flags[0])
+    assert math.isclose(conv.temperature_c[0], 500.0, abs_tol=1e-9)
+
+
+def test_a_reading_over_the_meters_range_is_withheld():
+    # 148 ohm on a 100 ohm range: above the 120 % a bench meter shows (common practice, no published source)
+    chain = MeasurementChain(SensorSpec(tolerance=tolerance_class("B")), range_ohm=100.0)
+    conv = chain.convert([119.0, 148.0])
+    assert flag_names(conv.flags[1]) == ["over_range"]
+    assert math.isnan(conv.temperature_c[1]) and math.isnan(conv.expanded_uncertainty_c[1])
+    assert conv.flags[0] == 0 and math.isclose(conv.temperature_c[0], 48.9, abs_tol=0.1)
+    # the meter's own range serves when the chain is given none
+    via_meter = MeasurementChain(meter=MeterSpec(0.01, 0.004, 100.0)).convert([148.0])
+    assert "over_range" in flag_names(via_meter.flags[0])
 
 
 def test_tolerance_class_range_is_flagged():
