@@ -64,12 +64,11 @@ class Pipeline:
             chain = config.chain(ch)
             curve = chain.sensor.curve
             inst = config.instrument(ch.instrument)
-            r_max = float(curve.resistance(curve.t_max_c))
-            open_on_overload = inst.kind.open_on_overload(inst, ch, r_max)
+            # the curve's ends bound its resistance (the low end is the hot one for an NTC)
+            r_ends = (float(curve.resistance(curve.t_min_c)), float(curve.resistance(curve.t_max_c)))
+            open_on_overload = inst.kind.open_on_overload(inst, ch, max(r_ends))
             self._by_input[(ch.instrument, ch.input)] = ChannelPipeline(
-                ch, store_ids[ch.name], chain,
-                SHORT_FRACTION * float(curve.resistance(curve.t_min_c)),
-                open_on_overload,
+                ch, store_ids[ch.name], chain, SHORT_FRACTION * min(r_ends), open_on_overload,
             )
 
     def convert(self, instrument: str, scans: Sequence[Sequence[RawReading]]) -> SampleBatch:

@@ -100,6 +100,7 @@ def check_report(cfg: StationConfig) -> dict[str, Any]:
         channels.append({
             "name": ch.name, "label": ch.label, "instrument": ch.instrument, "input": ch.input,
             "sensor": ch.sensor, "r0_ohm": curve.r0_ohm, "curve": curve.name, "vouched_by": vouch,
+            "sensor_label": getattr(curve, "label", f"Pt{curve.r0_ohm:g}"),
             "wiring": ch.leads.wiring,
             "excitation_ma": None if exc is None or exc.current_a is None else exc.current_a * 1e3,
             "uncertainty_at": [
@@ -128,7 +129,7 @@ def format_check(rep: dict[str, Any], safety: str) -> str:
     rows = []
     for c in rep["channels"]:
         rows.append([
-            c["name"], f"{c['instrument']}:{c['input']}", f"{c['sensor']} (Pt{c['r0_ohm']:g})", f"{c['wiring']}-wire",
+            c["name"], f"{c['instrument']}:{c['input']}", f"{c['sensor']} ({c['sensor_label']})", f"{c['wiring']}-wire",
             "—" if c["excitation_ma"] is None else f"{c['excitation_ma']:g} mA",
         ] + [("—" if u["expanded_uncertainty_c"] is None else f"{u['expanded_uncertainty_c']:.3f} K")
              + ("*" if u["flags"] else "") for u in c["uncertainty_at"]])

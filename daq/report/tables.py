@@ -139,9 +139,11 @@ def config_tables(run: RunData, profile: Profile | None) -> dict[str, list[dict[
         for s in cfg.sensors:
             cal = s.calibration
             sensors.append({
-                "sensor": s.name, "r0_ohm": s.curve.r0_ohm, "curve": s.curve.name, "a": s.curve.a, "b": s.curve.b,
-                "c": s.curve.c, "class": None if s.tolerance is None else s.tolerance.name,
-                "element": None if s.tolerance is None else s.tolerance.element,
+                "sensor": s.name, "r0_ohm": s.curve.r0_ohm, "curve": s.curve.name,
+                # A, B, C are a platinum curve's; other kinds' curves say what they are in "curve"
+                "a": getattr(s.curve, "a", None), "b": getattr(s.curve, "b", None), "c": getattr(s.curve, "c", None),
+                "class": None if s.tolerance is None else s.tolerance.name,
+                "element": getattr(s.tolerance, "element", None) or None,
                 "dissipation_mw_per_k": None if s.dissipation_w_per_k is None else num(s.dissipation_w_per_k * 1e3),
                 "certificate": None if cal is None else cal.certificate,
                 "cal_uncertainty_k": None if cal is None else cal.expanded_uncertainty_c,

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from soaklog.sensors.flags import FLAG_DTYPE, Flag
+from soaklog.sensors.flags import EDGE_TOL_K, FLAG_DTYPE, Flag
 
 __all__ = ["CvdCurve", "IEC_60751", "resistance", "temperature", "slope", "inclusive_bounds", "EDGE_ULPS"]
 
@@ -94,6 +94,11 @@ class CvdCurve:
         """Mean temperature coefficient 0…100 °C, (R100 − R0)/(100 °C · R0) = A + 100·B."""
         return self.a + 100.0 * self.b
 
+    @property
+    def label(self) -> str:
+        """A short name for tables: Pt100, Pt1000."""
+        return f"Pt{self.r0_ohm:g}"
+
     def with_r0(self, r0_ohm: float) -> CvdCurve:
         """The same coefficients for another nominal or calibrated R0."""
         return dataclasses.replace(self, r0_ohm=float(r0_ohm))
@@ -156,12 +161,12 @@ def temperature(
     flags = np.zeros(n, dtype=FLAG_DTYPE)
 
     a, b, c, r0 = curve.a, curve.b, curve.c, curve.r0_ohm
-    # the range is checked on the resistance itself, inclusive within a few
-    # ulps: R(t_max) written as a decimal (390.481125 ohm at 850 °C) may lie a
-    # rounding step above the float the polynomial gives; such a value reads
-    # t_max itself (clamped below), never a number outside the range
-    r_min, r_max = inclusive_bounds(float(resistance(curve.t_min_c, curve)),
-                                    float(resistance(curve.t_max_c, curve)))
+    # the range is checked on the resistance itself, its ends inclusive within
+    # EDGE_TOL_K (and a few ulps): R(t_max) written as a decimal (390.481125 ohm
+    # at 850 °C) may lie a rounding step above the float the polynomial gives;
+    # such a value reads t_max itself (clamped below), never a number outside
+    r_min, r_max = inclusive_bounds(float(resistance(curve.t_min_c - EDGE_TOL_K, curve)),
+                                    float(resistance(curve.t_max_c + EDGE_TOL_K, curve)))
     a2 = a * a
     b4 = 4.0 * b
     inv_r0 = 1.0 / r0

@@ -50,10 +50,11 @@ WITHHOLDING = Flag.OUT_OF_RANGE | Flag.INVALID_INPUT | Flag.LEADS_EXCEED_SENSOR 
 WITHHOLDING_UNCERTAINTY = Flag.NO_SENSOR_SPEC
 
 
-#: a temperature this close to the end of a class's or a calibration's span counts as
-#: inside it: the inverse of an equation lands a rounding step (about 1e-13 K) beside
-#: the end (R(500 °C) = 280.9775 ohm reads 500.00000000000006 °C), and a nanokelvin
-#: is far below anything a thermometer resolves
+#: a temperature this close to the end of a range counts as inside it (an equation's
+#: range, a class's, a calibration's span): the inverse of an equation lands a
+#: rounding step (about 1e-13 K) beside the end (R(500 °C) = 280.9775 ohm reads
+#: 500.00000000000006 °C), a table value typed in decimal lies a few ulps off, and a
+#: nanokelvin is far below anything a thermometer resolves
 EDGE_TOL_K = 1e-9
 
 

@@ -15,13 +15,14 @@ The chain, in order (each step pure and vectorised):
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Protocol
 
 import numpy as np
 import numpy.typing as npt
 
 from soaklog.errors import InputError
 from soaklog.sensors import selfheating
-from soaklog.sensors.cvd import IEC_60751, CvdCurve, slope, temperature
+from soaklog.sensors.cvd import IEC_60751
 from soaklog.sensors.flags import FLAG_DTYPE, WITHHOLDING_UNCERTAINTY, Flag, within
 from soaklog.sensors.leads import Leads
 from soaklog.sensors.tolerance import ToleranceClass
@@ -29,6 +30,8 @@ from soaklog.sensors.uncertainty import Budget, Contribution, combine, normal, r
 
 __all__ = [
     "SensorSpec",
+    "ResistanceCurve",
+    "SensorTolerance",
     "Calibration",
     "Excitation",
     "MeterSpec",
@@ -86,12 +89,40 @@ class Calibration:
             )
 
 
+class ResistanceCurve(Protocol):
+    """A resistive sensor's curve, as the chain uses it (``cvd.CvdCurve``, ``ntc.NtcCurve``, ``its90.SprtCurve``).
+
+    ``temperature`` gives NaN with a flag outside ``t_min_c``…``t_max_c``;
+    ``slope`` is dR/dt in ohm/K (negative for an NTC).
+    """
+
+    @property
+    def r0_ohm(self) -> float: ...
+    @property
+    def t_min_c(self) -> float: ...
+    @property
+    def t_max_c(self) -> float: ...
+    @property
+    def name(self) -> str: ...
+    def resistance(self, t_c: npt.ArrayLike) -> FloatArray: ...
+    def temperature(self, r_ohm: npt.ArrayLike) -> tuple[FloatArray, npt.NDArray[np.uint16]]: ...
+    def slope(self, t_c: npt.ArrayLike) -> FloatArray: ...
+
+
+class SensorTolerance(Protocol):
+    """What vouches for a sensor without a calibration: a bound in K and where it applies."""
+
+    def bound_c(self, t_c: npt.ArrayLike) -> FloatArray: ...
+    def in_range(self, t_c: npt.ArrayLike) -> npt.NDArray[np.bool_]: ...
+    def describe(self) -> str: ...
+
+
 @dataclass(frozen=True)
 class SensorSpec:
     """The sensor: its curve, what vouches for it, and its mounting."""
 
-    curve: CvdCurve = IEC_60751
-    tolerance: ToleranceClass | None = None
+    curve: ResistanceCurve = IEC_60751
+    tolerance: ToleranceClass | SensorTolerance | None = None
     calibration: Calibration | None = None
     dissipation_w_per_k: float | None = None
 
@@ -288,7 +319,7 @@ class MeasurementChain:
             ).astype(np.float64)
             if _leads_follow_chamber(self.leads):
                 for _ in range(2):
-                    t_est, _ = temperature(r_m - corr, curve)
+                    t_est, _ = curve.temperature(r_m - corr)
                     t_est = np.where(np.isnan(t_est), ambient_c, t_est)
                     corr = np.broadcast_to(
                         self.leads.correction_ohm(chamber_c=t_est, ambient_c=ambient_c), r_m.shape
@@ -304,12 +335,12 @@ class MeasurementChain:
             leads_bad = leads_bad | over
 
         # 2. Callendar–Van Dusen inverse
-        t_ind, cvd_flags = temperature(np.where(leads_bad, np.nan, r_s), curve)
+        t_ind, cvd_flags = curve.temperature(np.where(leads_bad, np.nan, r_s))
         flags |= np.where(leads_bad, FLAG_DTYPE(0), cvd_flags).astype(FLAG_DTYPE)
         valid = ~np.isnan(t_ind)
         t_safe = np.where(valid, t_ind, 0.0)
         with np.errstate(divide="ignore", invalid="ignore"):
-            sens = 1.0 / slope(t_safe, curve)  # ∂t/∂R, K/ohm
+            sens = 1.0 / curve.slope(t_safe)  # ∂t/∂R, K/ohm
 
         # 3. self-heating
         rise = np.zeros(r_m.shape, dtype=np.float64)
@@ -370,7 +401,7 @@ class MeasurementChain:
             out.append(
                 rectangular(
                     "sensor_tolerance",
-                    f"IEC 60751 {tol.describe()}",
+                    f"{getattr(tol, 'standard', '')} {tol.describe()}".strip(),
                     tol.bound_c(t),
                     "K",
                 )
@@ -437,9 +468,9 @@ class MeasurementChain:
 
 
 def chain_of(
-    curve: CvdCurve,
+    curve: ResistanceCurve,
     *,
-    tolerance: ToleranceClass | None = None,
+    tolerance: ToleranceClass | SensorTolerance | None = None,
     calibration: Calibration | None = None,
     dissipation_w_per_k: float | None = None,
     leads: Leads | None = None,

@@ -24,9 +24,10 @@ import numpy as np
 import numpy.typing as npt
 
 from soaklog.errors import CalibrationError, InputError
-from soaklog.sensors.flags import FLAG_DTYPE, Flag
+from soaklog.sensors.flags import EDGE_TOL_K, FLAG_DTYPE, Flag
 
-__all__ = ["KELVIN_OFFSET", "SteinhartHart", "BetaNtc", "fit_steinhart_hart"]
+__all__ = ["KELVIN_OFFSET", "SteinhartHart", "BetaNtc", "fit_steinhart_hart", "NtcCurve", "NtcTolerance",
+           "DEFAULT_NTC_RANGE_C", "T25_C"]
 
 FloatArray = npt.NDArray[np.float64]
 FlagArray = npt.NDArray[np.uint16]
@@ -236,3 +237,147 @@ def fit_steinhart_hart(t_c: npt.ArrayLike, r_ohm: npt.ArrayLike) -> SteinhartHar
             "monotonic NTC curve; check the points or use the β equation"
         )
     return SteinhartHart(a, b, c)
+
+
+# ---------------------------------------------------------------- a thermistor as a channel's curve
+
+#: the range an NTC's equation is used over when none is given: the −40…125 °C
+#: that most epoxy-coated bead and chip thermistors are specified for (common
+#: practice, no published source; give the data sheet's or the fit's range)
+DEFAULT_NTC_RANGE_C = (-40.0, 125.0)
+
+#: the reference temperature of R25 and of tolerances on it, °C
+T25_C = 25.0
+
+
+@dataclass(frozen=True)
+class NtcCurve:
+    """A thermistor's equation over the range it is valid for: what a channel's chain converts with.
+
+    Like ``cvd.CvdCurve``: ``resistance(t)`` evaluates wherever asked,
+    ``temperature(r)`` gives NaN with ``Flag.OUT_OF_RANGE`` outside
+    ``t_min_c``…``t_max_c`` (ends inclusive within a few ulps; never an
+    extrapolation — 1e300 ohm is out of range, not −273 °C) and
+    ``slope(t)`` is dR/dt (negative: an NTC).
+    """
+
+    model: SteinhartHart | BetaNtc
+    t_min_c: float = DEFAULT_NTC_RANGE_C[0]
+    t_max_c: float = DEFAULT_NTC_RANGE_C[1]
+    name: str = "NTC"
+
+    def __post_init__(self) -> None:
+        if not (np.isfinite(self.t_min_c) and np.isfinite(self.t_max_c) and self.t_min_c < self.t_max_c):
+            raise InputError(f"an NTC's range must be low < high in °C, got {self.t_min_c!r}…{self.t_max_c!r}")
+        if self.t_min_c + KELVIN_OFFSET <= 0.0:
+            raise InputError(f"an NTC's range must lie above −273.15 °C, got {self.t_min_c!r} °C")
+        r_lo, f_lo = self.model.resistance(self.t_max_c)
+        r_hi, f_hi = self.model.resistance(self.t_min_c)
+        if f_lo or f_hi or not float(r_lo) < float(r_hi):
+            raise InputError(f"the thermistor's equation gives no usable resistance over "
+                             f"{self.t_min_c:g}…{self.t_max_c:g} °C")
+
+    @property
+    def r25_ohm(self) -> float:
+        """Resistance at 25 °C."""
+        return float(self.model.resistance(T25_C)[0])
+
+    @property
+    def r0_ohm(self) -> float:
+        """The nominal resistance a thermistor is named by (its R25)."""
+        return self.r25_ohm
+
+    @property
+    def label(self) -> str:
+        """A short name for tables: NTC 10k."""
+        r = self.r25_ohm
+        return f"NTC {r / 1000:.3g}k" if r >= 1000 else f"NTC {r:.3g}"
+
+    def resistance(self, t_c: npt.ArrayLike) -> FloatArray:
+        return self.model.resistance(t_c)[0]
+
+    def temperature(self, r_ohm: npt.ArrayLike) -> tuple[FloatArray, FlagArray]:
+        from soaklog.sensors.cvd import inclusive_bounds
+
+        r = np.asarray(r_ohm, dtype=np.float64)
+        t, flags = self.model.temperature(r)
+        # ends inclusive within EDGE_TOL_K, as for every curve (see cvd.temperature)
+        r_min, r_max = inclusive_bounds(float(self.model.resistance(self.t_max_c + EDGE_TOL_K)[0]),
+                                        float(self.model.resistance(self.t_min_c - EDGE_TOL_K)[0]))
+        outside = ~((r >= r_min) & (r <= r_max)) & (flags == 0)
+        flags = np.where(outside, FLAG_DTYPE(Flag.OUT_OF_RANGE), flags).astype(FLAG_DTYPE)
+        t = np.where(flags != 0, np.nan, np.clip(t, self.t_min_c, self.t_max_c))
+        return t.astype(np.float64, copy=False), flags
+
+    def slope(self, t_c: npt.ArrayLike) -> FloatArray:
+        """dR/dt in ohm/K: R·d(ln R)/dT, with d(1/T)/d(ln R) = b + 3c·(ln R)² (β: 1/β)."""
+        t_k, _ = _usable_kelvin(t_c)
+        r = self.resistance(t_c)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return -r / (t_k * t_k * self._dinv_t_dlnr(r))
+
+    def _dinv_t_dlnr(self, r: FloatArray) -> FloatArray:
+        m = self.model
+        if isinstance(m, BetaNtc):
+            return np.full(np.shape(r), 1.0 / m.beta_k, dtype=np.float64)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            y = np.log(r)
+        return m.b + 3.0 * m.c * y * y
+
+
+@dataclass(frozen=True)
+class NtcTolerance:
+    """A thermistor's data-sheet tolerance, ±% of R25 and ±% of β, as a temperature bound.
+
+    The resistance at T may be off by the R25 tolerance plus what a β off by
+    its tolerance does away from 25 °C: Δ ln R = (Δβ/β)·β·|1/T − 1/T25| =
+    (Δβ/β)·|ln(R(T)/R25)| for the β equation (for a Steinhart–Hart curve the
+    same form, with its own ln(R/R25)); the two are added, as thermistor data
+    sheets combine them into one resistance tolerance, and turned into kelvin
+    by the curve's sensitivity: ΔT = (ΔR/R) / |d ln R/dT|.
+    """
+
+    curve: NtcCurve
+    r25_pct: float = 0.0
+    beta_pct: float = 0.0
+
+    def __post_init__(self) -> None:
+        for v, what in ((self.r25_pct, "R25 tolerance"), (self.beta_pct, "β tolerance")):
+            if not (np.isfinite(v) and v >= 0.0):
+                raise InputError(f"the thermistor's {what} must be a non-negative percentage, got {v!r}")
+
+    @property
+    def name(self) -> str:
+        return f"±{self.r25_pct:g} % R25, ±{self.beta_pct:g} % β"
+
+    element = ""
+
+    @property
+    def t_min_c(self) -> float:
+        return self.curve.t_min_c
+
+    @property
+    def t_max_c(self) -> float:
+        return self.curve.t_max_c
+
+    def resistance_fraction(self, t_c: npt.ArrayLike) -> FloatArray:
+        """ΔR/R at ``t_c``: the R25 part plus the β part."""
+        r = self.curve.resistance(t_c)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ln_ratio = np.abs(np.log(r / self.curve.r25_ohm))
+        return self.r25_pct / 100.0 + self.beta_pct / 100.0 * ln_ratio
+
+    def bound_c(self, t_c: npt.ArrayLike) -> FloatArray:
+        t = np.asarray(t_c, dtype=np.float64)
+        r = self.curve.resistance(t)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            dlnr_dt = np.abs(self.curve.slope(t) / r)
+            return self.resistance_fraction(t) / dlnr_dt
+
+    def in_range(self, t_c: npt.ArrayLike) -> npt.NDArray[np.bool_]:
+        from soaklog.sensors.flags import within
+
+        return within(t_c, self.t_min_c, self.t_max_c)
+
+    def describe(self) -> str:
+        return f"thermistor tolerance {self.name} over {self.t_min_c:g}…{self.t_max_c:g} °C"

@@ -33,6 +33,9 @@ class ToleranceClass:
     t_max_c: float
     element: Element
 
+    #: where the class comes from, for a budget's line
+    standard = "IEC 60751"
+
     def bound_c(self, t_c: npt.ArrayLike) -> npt.NDArray[np.float64]:
         """Half-width of the permitted deviation in kelvin at ``t_c``: a + b·|t|."""
         t = np.asarray(t_c, dtype=np.float64)

@@ -96,4 +96,6 @@ def test_its_keys_are_checked_by_file_and_key(copper) -> None:
 def test_without_its_module_the_type_is_unknown() -> None:
     with pytest.raises(ConfigProblems) as info:
         parse_config(STATION.format(keys=""))
-    assert ("sensor[1].type", "must be one of pt, got 'cu-linear'") in info.value.problems
+    known = ", ".join(SENSORS.names())  # the built-in kinds, without the test's own
+    assert "cu-linear" not in known and "pt" in known
+    assert ("sensor[1].type", f"must be one of {known}, got 'cu-linear'") in info.value.problems

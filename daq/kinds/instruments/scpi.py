@@ -137,12 +137,13 @@ class ScpiMeterKind(InstrumentKind):
         if rng is None:
             return
         curve = sensor.curve
-        r_hi = float(curve.resistance(min(curve.t_max_c, 850.0)))
-        if r_hi > 1.2 * rng and curve.r0_ohm > 1.2 * rng / 4:
+        r_cold, r_hot = (float(curve.resistance(curve.t_min_c)), float(curve.resistance(min(curve.t_max_c, 850.0))))
+        rising = r_hot > r_cold  # an NTC's resistance is highest at its cold end
+        if max(r_cold, r_hot) > 1.2 * rng and (curve.r0_ohm > 1.2 * rng / 4 or not rising):
             t, _ = curve.temperature(1.2 * rng)
-            t_over = float(t) if math.isfinite(float(t)) else curve.t_max_c
-            ck.warn(f"channel {channel.name}: the {rng:g} ohm range of {inst.name} over-ranges above "
-                    f"about {t_over:.0f} °C for this sensor")
+            t_over = float(t) if math.isfinite(float(t)) else (curve.t_max_c if rising else curve.t_min_c)
+            ck.warn(f"channel {channel.name}: the {rng:g} ohm range of {inst.name} over-ranges "
+                    f"{'above' if rising else 'below'} about {t_over:.0f} °C for this sensor")
 
     def driver(self, inst: InstrumentConfig, clock: Clock, channels: Sequence[ChannelConfig]) -> Driver:
         from soaklog.drivers.scpi_meter import ScpiMeter

@@ -9,14 +9,13 @@ from typing import TYPE_CHECKING, Any
 
 from soaklog.errors import InputError
 from soaklog.kinds import SENSORS
-from soaklog.kinds.keys import Checker, Key, non_negative, plain_date, positive
-from soaklog.kinds.sensors import SensorKind
+from soaklog.kinds.keys import Checker, Key, positive
+from soaklog.kinds.sensors import SensorKind, calibration_of, read_calibration
 
 if TYPE_CHECKING:
     from soaklog.config import ChannelConfig, SensorConfig
     from soaklog.sensors.measurement import AdcSpec, MeasurementChain, MeterSpec
 
-_CAL_KEYS = {"certificate", "date", "due", "expanded_uncertainty_c", "k", "span_c", "r0_ohm", "coefficients"}
 
 
 def _coefficients(ck: Checker, value: Any, key: str) -> tuple[float, float, float] | None:
@@ -85,33 +84,19 @@ class PlatinumRtd(SensorKind):
         cal: CalibrationRecord | None = None
         if "calibration" in d:
             ckey = f"{key}.calibration"
-            c = ck.table(d["calibration"], ckey)
-            ck.unknown(c, ckey, _CAL_KEYS)
-            cert = ck.get(c, ckey, "certificate", str, required=True) or ""
-            u = ck.get(c, ckey, "expanded_uncertainty_c", float, required=True, check=non_negative)
-            k = ck.get(c, ckey, "k", float, default=2.0, check=positive)
-            span = c.get("span_c", [-200.0, 850.0])
-            if (not isinstance(span, list) or len(span) != 2
-                    or not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in span)
-                    or not span[0] < span[1]):
-                ck.bad(f"{ckey}.span_c", f"must be [low, high] in °C with low < high, got {span!r}")
-                span = [-200.0, 850.0]
-            date = ck.get(c, ckey, "date", _dt.date, check=plain_date)
-            due = ck.get(c, ckey, "due", _dt.date, check=plain_date)
-            if due is not None and due < today:
-                ck.warn(f"{ckey}.due: calibration of {name} was due {due.isoformat()}; its uncertainty may no longer hold")
+            cal = read_calibration(ck, d["calibration"], ckey, name, today, (-200.0, 850.0),
+                                   extra=frozenset({"coefficients", "r0_ohm"}))
+            c = d["calibration"] if isinstance(d["calibration"], dict) else {}
             if "coefficients" in c:
                 co = _coefficients(ck, c["coefficients"], f"{ckey}.coefficients")
                 if co is not None:
                     try:
-                        curve = CvdCurve(a=co[0], b=co[1], c=co[2], name=f"calibration {cert}")
+                        curve = CvdCurve(a=co[0], b=co[1], c=co[2], name=f"calibration {cal.certificate if cal else ''}")
                     except ValueError as exc:
                         ck.bad(f"{ckey}.coefficients", str(exc))
                         curve = None
             if "r0_ohm" in c:
                 r0 = ck.get(c, ckey, "r0_ohm", float, check=positive) or r0
-            if u is not None and k is not None:
-                cal = CalibrationRecord(cert, u, k, (float(span[0]), float(span[1])), date, due)
         if name is None or curve is None or r0 is None:
             return None
         return SensorConfig(name, curve.with_r0(r0), tol, cal, None if diss is None else diss / 1000.0,
@@ -119,11 +104,9 @@ class PlatinumRtd(SensorKind):
 
     def chain(self, sensor: SensorConfig, channel: ChannelConfig, *, current_a: float | None,
               meter: MeterSpec | None, adc: AdcSpec | None) -> MeasurementChain:
-        from soaklog.sensors.measurement import Calibration, chain_of
+        from soaklog.sensors.measurement import chain_of
 
-        c = sensor.calibration
-        cal = None if c is None else Calibration(c.expanded_uncertainty_c, c.k, c.span_c[0], c.span_c[1], c.certificate)
-        return chain_of(sensor.curve, tolerance=sensor.tolerance, calibration=cal,
+        return chain_of(sensor.curve, tolerance=sensor.tolerance, calibration=calibration_of(sensor),
                         dissipation_w_per_k=sensor.dissipation_w_per_k, leads=channel.leads, current_a=current_a,
                         meter=meter, adc=adc)
 
