@@ -119,6 +119,10 @@ class ChannelConfig:
     excitation_a: float | None
     position: str = ""
     range_ohm: float | None = None  # a meter range for this channel alone (None: the instrument's)
+    #: what the instrument measures on this input: "ohm" or "V" (its sensor kind's quantity)
+    quantity: str = "ohm"
+    #: the sensor kind's own channel settings (a thermocouple's cold junction, …)
+    settings: Mapping[str, Any] = field(default_factory=lambda: MappingProxyType({}))
 
 
 @dataclass(frozen=True)
@@ -190,8 +194,12 @@ class StationConfig:
         sensor = self.sensor(channel.sensor)
         inst = self.instrument(channel.instrument)
         current = channel.excitation_a if channel.excitation_a is not None else inst.current_a(channel)
+        if channel.quantity != "ohm":
+            current = None  # nothing drives a current through a thermocouple
         chain = sensor.kind.chain(sensor, channel, current_a=current, meter=inst.kind.meter_spec(inst, channel),
                                   adc=inst.kind.adc_spec(inst, channel))
+        if channel.quantity != "ohm":
+            return chain
         rng = inst.range_ohm(channel)
         # a fixed range bounds what a reading can honestly be (over_range above it)
         return chain if rng is None or chain.range_ohm is not None else replace(chain, range_ohm=rng)
@@ -400,10 +408,15 @@ def _channels(
     out: list[ChannelConfig] = []
     seen: set[str] = set()
     inputs: set[tuple[str, str]] = set()
+    keys_of: dict[str, str] = {}
     for i, item in enumerate(_array(ck, raw, "channel")):
         key = f"channel[{i + 1}]"
         d = ck.table(item, key)
-        ck.unknown(d, key, _CHANNEL_KEYS)
+        sensor_name = d.get("sensor")
+        skind = sensors[sensor_name].kind if isinstance(sensor_name, str) and sensor_name in sensors else None
+        # a channel may have the keys its sensor's kind adds (a thermocouple's cold junction)
+        ck.unknown(d, key, _CHANNEL_KEYS | set(skind.channel_keys if skind is not None else
+                                                 set().union(*(k.channel_keys for _, k in SENSORS.items()))))
         name = ck.get(d, key, "name", str, required=True)
         _unique_name(ck, seen, name, key)
         inst = ck.get(d, key, "instrument", str, required=True)
@@ -425,14 +438,27 @@ def _channels(
         sensor = ck.get(d, key, "sensor", str, required=True)
         if sensor is not None and sensor not in sensors and sensor not in declared_sensors:
             ck.bad(f"{key}.sensor", f"no sensor named {sensor!r}; known: {', '.join(sensors) or 'none'}")
-        default_wiring = icfg.wiring if icfg is not None else 4
-        wiring = ck.get(d, key, "wiring", int, default=default_wiring,
-                        check=lambda v: None if v in (2, 3, 4) else f"must be 2, 3 or 4, got {v!r}")
-        if icfg is not None and wiring is not None and (msg := icfg.kind.check_wiring(icfg, wiring)):
-            ck.bad(f"{key}.wiring", msg)
-        leads = _leads(ck, d, key, wiring)
-        ma = ck.get(d, key, "excitation_ma", float, check=_positive)
-        ch_range = ck.get(d, key, "range_ohm", float, check=_positive)
+        quantity = skind.quantity if skind is not None else "ohm"
+        if icfg is not None and quantity not in icfg.kind.measures:
+            ck.bad(f"{key}.sensor", f"sensor {sensor} is measured in {quantity}; {inst} is {icfg.kind.noun} "
+                                    f"that measures {', '.join(sorted(icfg.kind.measures))} only")
+        if quantity != "ohm":
+            # a voltage is measured across two wires with no current: no wiring, leads or excitation
+            for k in ("wiring", "lead", "imbalance_ohm", "excitation_ma", "range_ohm"):
+                if k in d:
+                    ck.bad(f"{key}.{k}", f"does not apply to a sensor measured in {quantity}")
+            wiring: int | None = 4
+            leads: Leads | None = Leads(4)
+        else:
+            default_wiring = icfg.wiring if icfg is not None else 4
+            wiring = ck.get(d, key, "wiring", int, default=default_wiring,
+                            check=lambda v: None if v in (2, 3, 4) else f"must be 2, 3 or 4, got {v!r}")
+            if icfg is not None and wiring is not None and (msg := icfg.kind.check_wiring(icfg, wiring)):
+                ck.bad(f"{key}.wiring", msg)
+            leads = _leads(ck, d, key, wiring)
+        settings = skind.read_channel(ck, d, key) if skind is not None else {}
+        ma = ck.get(d, key, "excitation_ma", float, check=_positive) if quantity == "ohm" else None
+        ch_range = ck.get(d, key, "range_ohm", float, check=_positive) if quantity == "ohm" else None
         if ch_range is not None and icfg is not None and not icfg.kind.channel_range:
             ck.bad(f"{key}.range_ohm", f"a range applies to a multimeter channel; {inst} is {icfg.kind.noun}")
         if name is None or inst is None or inp is None or sensor is None or leads is None \
@@ -442,7 +468,12 @@ def _channels(
             name=name, label=ck.get(d, key, "label", str, default=name) or name, instrument=inst, input=inp,
             sensor=sensor, leads=leads, excitation_a=None if ma is None else ma / 1000.0,
             position=ck.get(d, key, "position", str, default="") or "", range_ohm=ch_range,
+            quantity=quantity, settings=MappingProxyType(settings),
         ))
+        keys_of[name] = key
+    by_name = {c.name: c for c in out}
+    for c in out:
+        sensors[c.sensor].kind.check_links(ck, c, keys_of[c.name], by_name, sensors)
     return out
 
 

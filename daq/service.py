@@ -153,7 +153,7 @@ class Service:
         )
         self.run_id = info.run_id
         ids = store.ensure_channels(
-            info.run_id, [(c.name, c.label, c.instrument, "ohm") for c in cfg.channels]
+            info.run_id, [(c.name, c.label, c.instrument, c.quantity) for c in cfg.channels]
         )
         self.pipeline = Pipeline(cfg, ids)
         self._ch_ids = dict(ids)

@@ -7,6 +7,7 @@ from typing import Any
 
 from soaklog.config import StationConfig
 from soaklog.sensors.flags import flag_names
+from soaklog.sensors.tc_chain import ThermocoupleChain
 from soaklog.store import StoreReader
 
 __all__ = ["status_report", "format_status", "check_report", "format_check"]
@@ -89,8 +90,20 @@ def check_report(cfg: StationConfig) -> dict[str, Any]:
     channels = []
     for ch in cfg.channels:
         chain = cfg.chain(ch)
-        curve = chain.sensor.curve
-        conv = chain.at_temperature(temps, ambient_c=cfg.ambient_c)
+        if isinstance(chain, ThermocoupleChain):
+            curve = chain.thermocouple
+            cj = chain.cold_junction
+            cj_u = None
+            if cj.source == "channel" and cj.channel is not None:
+                # the terminal block at the ambient temperature, with that channel's own uncertainty there
+                cj_conv = cfg.chain(next(c for c in cfg.channels if c.name == cj.channel)).at_temperature(
+                    [cfg.ambient_c], ambient_c=cfg.ambient_c)
+                cj_u = float(cj_conv.expanded_uncertainty_c[0])
+            conv = chain.at_temperature(temps, ambient_c=cfg.ambient_c, cold_junction_c=cfg.ambient_c,
+                                        cold_junction_u_c=cj_u)
+        else:
+            curve = chain.sensor.curve
+            conv = chain.at_temperature(temps, ambient_c=cfg.ambient_c)
         sensor = cfg.sensor(ch.sensor)
         vouch = (
             f"calibration {sensor.calibration.certificate} U = {sensor.calibration.expanded_uncertainty_c:g} K"
@@ -99,9 +112,10 @@ def check_report(cfg: StationConfig) -> dict[str, Any]:
         exc = chain.excitation
         channels.append({
             "name": ch.name, "label": ch.label, "instrument": ch.instrument, "input": ch.input,
-            "sensor": ch.sensor, "r0_ohm": curve.r0_ohm, "curve": curve.name, "vouched_by": vouch,
-            "sensor_label": getattr(curve, "label", f"Pt{curve.r0_ohm:g}"),
-            "wiring": ch.leads.wiring,
+            "sensor": ch.sensor, "r0_ohm": getattr(curve, "r0_ohm", None), "curve": curve.name, "vouched_by": vouch,
+            "sensor_label": curve.label if hasattr(curve, "label") else f"Pt{curve.r0_ohm:g}",
+            "wiring": ch.leads.wiring if ch.quantity == "ohm" else None,
+            "cold_junction": chain.cold_junction.describe() if isinstance(chain, ThermocoupleChain) else None,
             "excitation_ma": None if exc is None or exc.current_a is None else exc.current_a * 1e3,
             "uncertainty_at": [
                 {"t_c": t, "expanded_uncertainty_c": (None if math.isnan(u) else float(u)),
@@ -129,7 +143,7 @@ def format_check(rep: dict[str, Any], safety: str) -> str:
     rows = []
     for c in rep["channels"]:
         rows.append([
-            c["name"], f"{c['instrument']}:{c['input']}", f"{c['sensor']} ({c['sensor_label']})", f"{c['wiring']}-wire",
+            c["name"], f"{c['instrument']}:{c['input']}", f"{c['sensor']} ({c['sensor_label']})", "—" if c["wiring"] is None else f"{c['wiring']}-wire",
             "—" if c["excitation_ma"] is None else f"{c['excitation_ma']:g} mA",
         ] + [("—" if u["expanded_uncertainty_c"] is None else f"{u['expanded_uncertainty_c']:.3f} K")
              + ("*" if u["flags"] else "") for u in c["uncertainty_at"]])
@@ -139,7 +153,8 @@ def format_check(rep: dict[str, Any], safety: str) -> str:
         lines.append("  ".join(r[i].ljust(w[i]) for i in range(len(r))))
     lines.append("  (U: expanded uncertainty, k = 2, of one reading; * = flagged, see soaklog convert for the meaning)")
     for c in rep["channels"]:
-        lines.append(f"  {c['name']}: {c['vouched_by']}")
+        lines.append(f"  {c['name']}: {c['vouched_by']}"
+                     + (f"; {c['cold_junction']}" if c.get("cold_junction") else ""))
     lines.append("")
     if rep["warnings"]:
         lines.append("warnings:")

@@ -125,6 +125,7 @@ class ScpiMeter:
         backoff: Backoff = Backoff(),
         test_current_a: Mapping[float, float] | None = None,
         channel_settings: Mapping[str, tuple[Wiring, float | None]] | None = None,
+        volt_channels: Mapping[str, float | None] | None = None,
     ) -> None:
         channels = tuple(str(c) for c in channels)
         if not channels or len(set(channels)) != len(channels):
@@ -170,9 +171,22 @@ class ScpiMeter:
         self._settings: dict[str, tuple[Wiring, float | None]] = {
             ch: settings.get(ch, (wiring, range_ohm)) for ch in channels
         }
-        self._currents: tuple[float | None, ...] = tuple(profile.current_for_range(self._settings[ch][1]) for ch in channels)
-        self._wirings: tuple[int, ...] = tuple(self._settings[ch][0] for ch in channels)
-        if len(set(self._settings.values())) == 1:
+        # channels that measure DC volts (thermocouples), with their range (None: autorange)
+        volts = dict(volt_channels or {})
+        for ch, r in volts.items():
+            if ch not in channels:
+                raise InputError(f"{name}: a volts setting for channel {ch!r}, which is not in the scan")
+            if r is not None and not r > 0:
+                raise InputError(f"{name}: channel {ch} volts range must be positive or None, got {r!r}")
+        if volts and not profile.configure_dcv:
+            raise InputError(f"{name}: profile {profile.name!r} has no DC volts command (configure_dcv); "
+                             "give it in commands to read thermocouples")
+        self._volts = volts
+        self._signed: tuple[bool, ...] | None = tuple(ch in volts for ch in channels) if volts else None
+        self._currents: tuple[float | None, ...] = tuple(
+            None if ch in volts else profile.current_for_range(self._settings[ch][1]) for ch in channels)
+        self._wirings: tuple[int | None, ...] = tuple(None if ch in volts else self._settings[ch][0] for ch in channels)
+        if not volts and len(set(self._settings.values())) == 1:
             self._scan_current: tuple[float | None, ...] | float | None = self._currents[0]
             self._scan_wiring: tuple[int, ...] | int = self._wirings[0]
         else:
@@ -277,9 +291,21 @@ class ScpiMeter:
     def _configure(self) -> None:
         p = self.profile
         groups: dict[tuple[Wiring, float | None], list[str]] = {}
+        dcv: dict[float | None, list[str]] = {}
         for ch in self.channels:
-            groups.setdefault(self._settings[ch], []).append(ch)
+            if ch in self._volts:
+                dcv.setdefault(self._volts[ch], []).append(ch)
+            else:
+                groups.setdefault(self._settings[ch], []).append(ch)
         sent = [c for c in (p.reset, p.clear) if c]
+        for range_v, chans in dcv.items():
+            values = {
+                "range": p.autorange if range_v is None else f"{range_v:.10g}",
+                "channels": format_channel_list(chans),
+                "nplc": f"{self.nplc:.10g}",
+                "state": p.off,
+            }
+            sent += [p.render(t, **values) for t in (p.configure_dcv, p.nplc_dcv) if t]
         for (wiring, range_ohm), chans in groups.items():
             values = {
                 "range": p.autorange if range_ohm is None else f"{range_ohm:.10g}",
@@ -343,7 +369,8 @@ class ScpiMeter:
                 listed = "; ".join(f"{c},{m!r}" for c, m in entries) or f"*ESR? = {esr}"
                 self._note(f"{self.name} logged an error during the scan: {listed}")
                 return failed_scan(self.channels, t_utc_s, "error", self._health.last_error)
-        scan = parse_scan(body, self.channels, t_utc_s, current_a=self._scan_current, wiring=self._scan_wiring)
+        scan = parse_scan(body, self.channels, t_utc_s, current_a=self._scan_current, wiring=self._scan_wiring,
+                          signed=self._signed)
         if scan.status[0] == STATUS_INDEX["garbage"]:  # a scan fails to parse as a whole
             raise self._error(ReplyGarbled, f"sent a scan that does not parse: {scan.reasons[0]}", self.profile.read)
         self._health.last_ok_utc_s = t_utc_s

@@ -63,13 +63,15 @@ def parse_reply(
     *,
     current_a: float | None = None,
     wiring: int | None = None,
+    signed: frozenset[str] = frozenset(),
 ) -> list[RawReading]:
     """Split one comma-separated SCPI reply into one reading per channel; never raises, never invents a number.
 
     A reply that does not hold exactly one plain number per channel makes every
     channel ``garbage`` (the values cannot be told apart). Per value: the
     SCPI not-a-number code is ``error``, an overload (either sign) is
-    ``overload``, a negative resistance is ``out_of_range``.
+    ``overload``, a negative resistance is ``out_of_range``; a channel in
+    ``signed`` measures DC volts (a thermocouple), which may be negative.
     """
     if not channels:
         return []
@@ -87,7 +89,11 @@ def parse_reply(
     for channel, field_text in zip(channels, fields):
         value = float(field_text)
         if 0.0 <= value < OVERLOAD:  # the usual case first: a scan is mostly good readings
-            out.append(RawReading(channel, t_utc_s, value, "ohm", "ok", "", current_a, wiring))
+            out.append(RawReading(channel, t_utc_s, value, "V" if channel in signed else "ohm", "ok", "",
+                                  None if channel in signed else current_a, None if channel in signed else wiring))
+            continue
+        if channel in signed and -OVERLOAD < value < 0.0:
+            out.append(RawReading(channel, t_utc_s, value, "V", "ok", "", None, None))
             continue
         if math.isclose(value, NOT_A_NUMBER, rel_tol=1e-9):
             status, reason = "error", "the meter sent not-a-number (9.91E37) for this reading"
@@ -106,6 +112,7 @@ def parse_scan(
     *,
     current_a: Sequence[float | None] | float | None = None,
     wiring: Sequence[int | None] | int | None = None,
+    signed: Sequence[bool] | None = None,
 ) -> RawScan:
     """``parse_reply`` in columnar form: the same statuses, as one ``RawScan``.
 
@@ -123,12 +130,14 @@ def parse_scan(
                 values = np.array([float(f) for f in fields], dtype=np.float64)
             except ValueError:
                 values = None
-            if values is not None and bool(((values >= 0.0) & (values < OVERLOAD)).all()):
+            low = 0.0 if signed is None else np.where(np.asarray(signed, dtype=bool), -OVERLOAD, 0.0)
+            if values is not None and bool(((values >= low) & (np.abs(values) < OVERLOAD)).all()):
                 return RawScan(chans, t_utc_s, values, np.zeros(len(chans), dtype=np.int8),
                                current_a=current_a, wiring=wiring, checked=True)
     single_current = current_a if not isinstance(current_a, (list, tuple)) else None
     single_wiring = wiring if not isinstance(wiring, (list, tuple)) else None
-    readings = parse_reply(text, chans, t_utc_s, current_a=single_current, wiring=single_wiring)
+    volts = frozenset(c for c, v in zip(chans, signed, strict=True) if v) if signed is not None else frozenset()
+    readings = parse_reply(text, chans, t_utc_s, current_a=single_current, wiring=single_wiring, signed=volts)
     return RawScan(
         chans, t_utc_s,
         np.array([r.value for r in readings], dtype=np.float64),
@@ -195,6 +204,9 @@ class MeterProfile:
     read: str = "READ?"
     event_status: str = "*ESR?"
     error_query: str = "SYST:ERR?"
+    #: DC volts (thermocouple channels): SCPI-1999 CONFigure:VOLTage:DC
+    configure_dcv: str = "CONF:VOLT:DC {range},{channels}"
+    nplc_dcv: str = "SENS:VOLT:DC:NPLC {nplc},{channels}"
     measure_2w: str = "MEAS:RES? {channels}"
     measure_4w: str = "MEAS:FRES? {channels}"
     autorange: str = "AUTO"
@@ -261,6 +273,8 @@ PROFILES: dict[str, MeterProfile] = {
         configure_4w="CONF:FRES {range}",
         nplc_2w="SENS:RES:NPLC {nplc}",
         nplc_4w="SENS:FRES:NPLC {nplc}",
+        configure_dcv="CONF:VOLT:DC {range}",
+        nplc_dcv="SENS:VOLT:DC:NPLC {nplc}",
         # many bench meters offer offset compensation in 4-wire only (common practice)
         offset_compensation_2w="",
         offset_compensation_4w="SENS:FRES:OCOM {state}",

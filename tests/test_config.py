@@ -393,7 +393,7 @@ BROKEN_TEXTS = [
          ("sensor[1].element", "only qualifies a class")),
     case("unknown-curve", VALID + SPARE + 'curve = "pt385"\n', ("sensor[2].curve", "unknown RTD curve 'pt385'")),
     case("not-platinum", VALID.replace('class = "B"', 'class = "B"\ntype = "ni"'),
-         ("sensor[1].type", "pt, got 'ni'")),
+         ("sensor[1].type", "got 'ni'")),
     case("zero-excitation", VALID + "excitation_ma = 0.0\n", ("channel[1].excitation_ma", "must be positive")),
     case("range-on-a-board-channel", STATION + BOARD + PT100 + ON_BOARD + "range_ohm = 100.0\n",
          ("channel[1].range_ohm", "a range applies to a multimeter channel")),

@@ -36,6 +36,10 @@ class Flag(enum.IntFlag):
     """The lead correction is larger than what was measured; no temperature."""
     OVER_RANGE = 1 << 7
     """Above what the instrument's range can measure (a fixed range and its over-range); no temperature."""
+    NO_COLD_JUNCTION = 1 << 8
+    """A thermocouple's cold-junction temperature is not known at this reading; no temperature."""
+    COLD_JUNCTION_UNVOUCHED = 1 << 9
+    """The cold junction's temperature has no stated uncertainty: the reading's uncertainty is withheld."""
 
     @property
     def label(self) -> str:
@@ -43,11 +47,12 @@ class Flag(enum.IntFlag):
 
 
 #: flags that mean the value is withheld (NaN) rather than qualified
-WITHHOLDING = Flag.OUT_OF_RANGE | Flag.INVALID_INPUT | Flag.LEADS_EXCEED_SENSOR | Flag.OVER_RANGE
+WITHHOLDING = (Flag.OUT_OF_RANGE | Flag.INVALID_INPUT | Flag.LEADS_EXCEED_SENSOR | Flag.OVER_RANGE
+               | Flag.NO_COLD_JUNCTION)
 
 #: flags that leave the temperature but withhold its uncertainty (NaN, never 0):
 #: the configuration does not say enough to state one honestly
-WITHHOLDING_UNCERTAINTY = Flag.NO_SENSOR_SPEC
+WITHHOLDING_UNCERTAINTY = Flag.NO_SENSOR_SPEC | Flag.COLD_JUNCTION_UNVOUCHED
 
 
 #: a temperature this close to the end of a range counts as inside it (an equation's

@@ -272,3 +272,28 @@ def test_backoff_doubles_up_to_its_cap() -> None:
 def test_bad_backoff_is_refused(kwargs: dict[str, float]) -> None:
     with pytest.raises(InputError, match=re.escape("back-off")):
         Backoff(**kwargs)
+
+
+def test_volts_channels_may_be_negative_and_resistances_may_not() -> None:
+    from soaklog.drivers.scpi_text import parse_scan
+
+    # a thermocouple below its cold junction reads a negative emf; a negative resistance is a wiring fault
+    scan = parse_scan("-1.234E-03,+1.0E+02,-5.0E+00", ["101", "102", "103"], 0.0,
+                      current_a=[None, 1e-3, 1e-3], wiring=[None, 4, 4], signed=[True, False, False])
+    assert [r.status for r in scan] == ["ok", "ok", "out_of_range"]
+    assert scan[0].value == -1.234e-3 and scan[0].current_a is None
+    # SCPI-1999 overload (either sign) is an overload on a volts channel too
+    scan = parse_scan("-9.9E37,+9.9E37", ["101", "102"], 0.0, signed=[True, True])
+    assert [r.status for r in scan] == ["overload", "overload"]
+    # the fast path takes an all-good signed scan whole
+    scan = parse_scan("-1.0E-03,+2.0E-03", ["101", "102"], 0.0, signed=[True, True])
+    assert [r.status for r in scan] == ["ok", "ok"]
+
+
+def test_the_profiles_configure_dc_volts_per_channel() -> None:
+    from soaklog.drivers.scpi_text import PROFILES
+
+    p = PROFILES["generic"]
+    # SCPI-1999 CONFigure:VOLTage:DC with a range and a channel list
+    assert p.render(p.configure_dcv, range="0.1", channels="(@102:104)", nplc="1", state="OFF") == \
+        "CONF:VOLT:DC 0.1,(@102:104)"

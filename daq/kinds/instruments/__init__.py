@@ -42,6 +42,8 @@ class InstrumentKind:
     keys: ClassVar[Mapping[str, Key]] = {}
     #: whether a channel may set its own range (``range_ohm``)
     channel_range: ClassVar[bool] = False
+    #: what its inputs measure: "ohm", and "V" for one that measures DC volts too (thermocouples)
+    measures: ClassVar[frozenset[str]] = frozenset({"ohm"})
 
     def read(self, ck: Checker, d: Mapping[str, Any], key: str) -> dict[str, Any]:
         """The kind's settings from its table (problems to ``ck``, by key)."""

@@ -15,6 +15,7 @@ if TYPE_CHECKING:
     from soaklog.config import ChannelConfig, InstrumentConfig, SensorConfig
     from soaklog.drivers.base import Clock, Driver
     from soaklog.sensors.measurement import MeterSpec
+    from soaklog.sensors.tc_chain import VoltSpec
 
 
 def default_test_currents() -> dict[float, float]:
@@ -29,6 +30,7 @@ class ScpiMeterKind(InstrumentKind):
     name = "scpi"
     noun = "a multimeter"
     channel_range = True
+    measures = frozenset({"ohm", "V"})
     keys: Mapping[str, Key] = {
         "resource": Key(str, "VISA resource string (TCPIP0::192.0.2.5::5025::SOCKET, USB0::…::INSTR, GPIB0::22::INSTR)",
                         required=True),
@@ -39,6 +41,8 @@ class ScpiMeterKind(InstrumentKind):
         "offset_compensation": Key(bool, "measure with the current on and off", default=True),
         "test_current_a": Key(dict, "measuring current per range in A, keyed by range in ohm"),
         "accuracy": Key(dict, "ohms accuracy: { pct_reading = …, pct_range = … }"),
+        "range_v": Key(float, "the DC volts range of thermocouple channels", default=0.1),
+        "accuracy_dcv": Key(dict, "DC volts accuracy: { pct_reading = …, pct_range = … }"),
         "profile": Key(str, "the meter's SCPI dialect", default="generic"),
         "commands": Key(dict, "single SCPI command templates replacing the dialect's"),
     }
@@ -84,6 +88,15 @@ class ScpiMeterKind(InstrumentKind):
             ck.unknown(a, f"{key}.accuracy", {"pct_reading", "pct_range"})
             kw["accuracy_pct_reading"] = ck.get(a, f"{key}.accuracy", "pct_reading", float, required=True, check=non_negative)
             kw["accuracy_pct_range"] = ck.get(a, f"{key}.accuracy", "pct_range", float, default=0.0, check=non_negative)
+        kw["range_v"] = ck.get(d, key, "range_v", float, default=0.1, check=positive) or 0.1
+        kw["dcv_pct_reading"] = kw["dcv_pct_range"] = None
+        acc = d.get("accuracy_dcv")
+        if acc is not None:
+            a = ck.table(acc, f"{key}.accuracy_dcv")
+            ck.unknown(a, f"{key}.accuracy_dcv", {"pct_reading", "pct_range"})
+            kw["dcv_pct_reading"] = ck.get(a, f"{key}.accuracy_dcv", "pct_reading", float, required=True,
+                                           check=non_negative)
+            kw["dcv_pct_range"] = ck.get(a, f"{key}.accuracy_dcv", "pct_range", float, default=0.0, check=non_negative)
         kw["profile"] = ck.get(d, key, "profile", str, default="generic") or "generic"
         c = ck.table(d.get("commands", {}), f"{key}.commands")
         for ckey, cval in c.items():
@@ -96,6 +109,8 @@ class ScpiMeterKind(InstrumentKind):
         return None if wiring in (2, 4) else f"a multimeter measures 2- or 4-wire, not {wiring}-wire"
 
     def range_ohm(self, inst: InstrumentConfig, channel: ChannelConfig | None = None) -> float | None:
+        if channel is not None and channel.quantity != "ohm":
+            return None  # a volts channel (a thermocouple) has a volts range
         if channel is not None and channel.range_ohm is not None:
             return channel.range_ohm
         return inst.settings["range_ohm"]
@@ -110,8 +125,17 @@ class ScpiMeterKind(InstrumentKind):
                 return table[rng]
         return None
 
-    def meter_spec(self, inst: InstrumentConfig, channel: ChannelConfig) -> MeterSpec | None:
+    def range_v(self, inst: InstrumentConfig, channel: ChannelConfig) -> float:
+        """The DC volts range of a thermocouple channel: its own, or the instrument's."""
+        return float(channel.settings.get("range_v") or inst.settings["range_v"])
+
+    def meter_spec(self, inst: InstrumentConfig, channel: ChannelConfig) -> MeterSpec | VoltSpec | None:
         s = inst.settings
+        if channel.quantity == "V":
+            from soaklog.sensors.tc_chain import VoltSpec
+
+            # the range bounds an honest reading even when no accuracy is given
+            return VoltSpec(s["dcv_pct_reading"] or 0.0, s["dcv_pct_range"] or 0.0, self.range_v(inst, channel))
         if s["accuracy_pct_reading"] is None:
             return None
         from soaklog.sensors.measurement import MeterSpec
@@ -120,6 +144,8 @@ class ScpiMeterKind(InstrumentKind):
 
     def open_on_overload(self, inst: InstrumentConfig, channel: ChannelConfig, r_max_ohm: float) -> bool:
         # an overload is an open sensor only where the range holds the sensor's whole span
+        if channel.quantity == "V":  # r_max_ohm is then the largest emf in V
+            return 1.2 * self.range_v(inst, channel) >= r_max_ohm
         rng = self.range_ohm(inst, channel)
         return rng is not None and 1.2 * rng >= r_max_ohm
 
@@ -133,6 +159,14 @@ class ScpiMeterKind(InstrumentKind):
         return f"±({s['accuracy_pct_reading']:g} % of reading + {s['accuracy_pct_range'] or 0:g} % of range)"
 
     def warnings(self, inst: InstrumentConfig, channel: ChannelConfig, sensor: SensorConfig, ck: Checker) -> None:
+        if channel.quantity == "V":
+            tc = sensor.curve
+            e_lo, e_hi = tc.emf_limits_mv()  # type: ignore[attr-defined]
+            rng_v = self.range_v(inst, channel)
+            if max(abs(e_lo), abs(e_hi)) / 1000.0 > 1.2 * rng_v:
+                ck.warn(f"channel {channel.name}: the {rng_v:g} V range of {inst.name} does not hold a {tc.label}'s "
+                        f"whole emf ({max(abs(e_lo), abs(e_hi)):.3f} mV); hot readings will be over range")
+            return
         rng = self.range_ohm(inst, channel)
         if rng is None:
             return
@@ -156,13 +190,14 @@ class ScpiMeterKind(InstrumentKind):
         except InputError as exc:
             raise ConfigError(str(exc), key=f"{key}.commands" if s["commands"] else f"{key}.profile") from None
         wiring = 4 if s["wiring"] == 4 else 2
-        per_channel = {c.input: (c.leads.wiring, self.range_ohm(inst, c)) for c in channels}
+        per_channel = {c.input: (c.leads.wiring, self.range_ohm(inst, c)) for c in channels if c.quantity == "ohm"}
+        volts = {c.input: self.range_v(inst, c) for c in channels if c.quantity == "V"}
         try:
             return ScpiMeter(
                 inst.name, s["resource"], [c.input for c in channels], wiring=wiring, range_ohm=s["range_ohm"],
                 nplc=s["nplc"], offset_compensation=s["offset_compensation"], profile=profile,
                 timeout_s=inst.timeout_s, backend=s["backend"], clock=clock, test_current_a=s["test_current_a"],
-                channel_settings=per_channel,
+                channel_settings=per_channel, volt_channels=volts,
             )
         except InputError as exc:
             raise ConfigError(str(exc), key=key) from None

@@ -34,6 +34,18 @@ class SensorKind:
 
     name: ClassVar[str] = ""
     keys: ClassVar[Mapping[str, Key]] = {}
+    #: what an instrument measures for this sensor: "ohm" (a resistance) or "V" (a voltage)
+    quantity: ClassVar[str] = "ohm"
+    #: keys a ``[[channel]]`` with this sensor may have beyond every channel's
+    channel_keys: ClassVar[Mapping[str, Key]] = {}
+
+    def read_channel(self, ck: Checker, d: Mapping[str, Any], key: str) -> dict[str, Any]:
+        """The channel's settings for this kind from its ``channel_keys`` (problems to ``ck``, by key)."""
+        return {}
+
+    def check_links(self, ck: Checker, channel: ChannelConfig, key: str,
+                    channels: Mapping[str, ChannelConfig], sensors: Mapping[str, SensorConfig]) -> None:
+        """Problems with what the channel's settings name elsewhere in the station (another channel)."""
 
     def read(self, ck: Checker, d: Mapping[str, Any], key: str, name: str | None, description: str,
              today: _dt.date) -> SensorConfig | None:
