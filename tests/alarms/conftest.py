@@ -2,22 +2,14 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable, Iterator
-from pathlib import Path
+from collections.abc import Callable
 
 import pytest
-from alarmlab import AlarmLab
+from testkit.lab import LabRun
 
 
 @pytest.fixture
-def alarm_lab(tmp_path: Path) -> Iterator[Callable[..., AlarmLab]]:
-    labs: list[AlarmLab] = []
-
-    def start(speed: float = 120.0, extra: str = "") -> AlarmLab:
-        lab = AlarmLab(tmp_path, speed, extra)
-        labs.append(lab)
-        return lab
-
-    yield start
-    for lab in labs:
-        lab.stop()
+def alarm_lab(lab_run: Callable[..., LabRun]) -> Callable[..., LabRun]:
+    """``lab_run`` with the heater supply's address in the station file, at 120x by default;
+    ``extra`` is more of the station file (alarms), checked as the file is."""
+    return lambda speed=120.0, extra="": lab_run(speed, supply=True, extra=extra)

@@ -6,7 +6,7 @@ from __future__ import annotations
 import subprocess
 import sys
 
-from alarmlab import EPOCH_UTC_S, wait_for
+from testkit import EPOCH_UTC_S, wait_for
 
 from soaklog.store import StoreReader, StoreWriter
 

@@ -1,31 +1,16 @@
-"""Fixtures for the dashboard tests (the helpers live in dashfixtures.py)."""
+"""Fixtures for the dashboard tests (the helpers live in testkit.dashboard; ``lab_run`` in tests/conftest.py)."""
 
 from __future__ import annotations
 
-from collections.abc import Callable, Iterator
 from pathlib import Path
 
 import pytest
-from dashfixtures import LabRun, write_fixture
+from testkit.dashboard import write_fixture
 
 
 @pytest.fixture
 def fixture_db(tmp_path: Path) -> Path:
-    """A store with 3 h of known readings on four channels (see dashfixtures.write_fixture)."""
+    """A store with 3 h of known readings on four channels (see testkit.dashboard.write_fixture)."""
     path = tmp_path / "fixture.db"
     write_fixture(path)
     return path
-
-
-@pytest.fixture
-def lab_run(tmp_path: Path) -> Iterator[Callable[..., LabRun]]:
-    runs: list[LabRun] = []
-
-    def start(speed: float = 30.0) -> LabRun:
-        r = LabRun(tmp_path, speed)
-        runs.append(r)
-        return r
-
-    yield start
-    for r in runs:
-        r.stop()

@@ -6,7 +6,8 @@ import sqlite3
 import threading
 
 import pytest
-from dashfixtures import NOW_MS, START_MS, frozen_clock, screen_text, wait_until
+from testkit import wait_until
+from testkit.dashboard import NOW_MS, START_MS, frozen_clock, screen_text
 
 from soaklog.dashboard.app import DashboardApp
 from soaklog.dashboard.screens import (
@@ -81,7 +82,7 @@ async def test_probes_show_the_stored_values_with_marks_on_abnormal_rows(fixture
         text = screen_text(app)
         assert "fixture-bench" in text and "run 1: fixture cycling run" in text
         assert "elapsed 3:00:00 of 100 h planned (3.0 %)" in text
-        # dashfixtures: the cycle plan at 3 h: 3402 s + 3780 s = cycle 3 starts at 7182 s, its dwell low at 10 062 s
+        # testkit.dashboard: the cycle plan at 3 h: 3402 s + 3780 s = cycle 3 starts at 7182 s, its dwell low at 10 062 s
         assert "plan dwell low · cycle 3 of 10 · set point -40.0 °C" in text
         assert "!! 1 alarm to acknowledge (a)" in text
         assert "not a safety device" in text

@@ -5,7 +5,7 @@ from __future__ import annotations
 import sqlite3
 
 import pytest
-from dashfixtures import wait_for, wait_until
+from testkit import wait_for, wait_until
 
 from soaklog.dashboard.app import DashboardApp
 from soaklog.dashboard.widgets import AlarmBoard, ChannelBoard, RequestLine

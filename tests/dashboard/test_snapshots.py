@@ -15,7 +15,8 @@ import os
 from pathlib import Path
 
 import pytest
-from dashfixtures import frozen_clock, screen_text, wait_until
+from testkit import wait_until
+from testkit.dashboard import frozen_clock, screen_text
 
 from soaklog.dashboard.app import DashboardApp
 from soaklog.dashboard.widgets import TrendPanel

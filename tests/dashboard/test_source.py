@@ -6,7 +6,7 @@ import sqlite3
 
 import numpy as np
 import pytest
-from dashfixtures import (
+from testkit.dashboard import (
     AIR_RATE_K_PER_MIN,
     NOW_MS,
     PLATE_SILENT_S,
@@ -56,7 +56,7 @@ def test_channel_values_equal_the_stored_readings(fixture_db):
 def test_rate_of_change_is_the_slope_of_the_readings(fixture_db):
     snap = StoreSource(fixture_db, clock=frozen_clock()).poll()
     rows = {c.name: c for c in snap.channels}
-    # the fixture writes air rising at 0.5 K/min and the shelf constant (dashfixtures, by construction)
+    # the fixture writes air rising at 0.5 K/min and the shelf constant (testkit.dashboard, by construction)
     assert rows["air"].rate_k_per_min == pytest.approx(AIR_RATE_K_PER_MIN, abs=1e-3)
     assert rows["shelf"].rate_k_per_min == pytest.approx(0.0, abs=1e-9)
     assert rows["door"].rate_k_per_min is None  # reads open: no rate

@@ -11,6 +11,7 @@ import uuid
 from pathlib import Path
 
 import pytest
+from testkit import wait_for
 
 from soaklog.store import StoreReader
 
@@ -35,7 +36,7 @@ class Tmux:
     def screen(self) -> str:
         return self.run("capture-pane", "-p", "-t", self.session).stdout
 
-    def wait_for(self, text: str, timeout_s: float = 30.0) -> str:
+    def wait_for(self, text: str, timeout_s: float = 60.0) -> str:
         deadline = time.monotonic() + timeout_s
         shown = ""
         while time.monotonic() < deadline:
@@ -67,18 +68,18 @@ def test_soaklog_dash_in_a_real_terminal(fixture_db, tmp_path):
         tmux.run("send-keys", "-t", tmux.session, "a")
         tmux.wait_for("active, not acked")
         tmux.run("send-keys", "-t", tmux.session, "k")
-        deadline = time.monotonic() + 20
-        actions: list[dict] = []
-        while time.monotonic() < deadline and not actions:
+        actions: list = []
+
+        def acted() -> bool:
             with StoreReader.open(fixture_db) as st:
-                actions = st.operator_actions()
-            time.sleep(0.1)
+                actions[:] = st.operator_actions()
+            return bool(actions)
+
+        wait_for(acted, 60, "the acknowledgement in the store")
         assert [(a.kind, a.target) for a in actions] == [("acknowledge", "air-high:air")]
         tmux.wait_for("waiting for the logger")
         tmux.run("send-keys", "-t", tmux.session, "q")
-        deadline = time.monotonic() + 20
-        while time.monotonic() < deadline and not status.exists():
-            time.sleep(0.1)
+        wait_for(status.exists, 60, "the dashboard's exit status")
         assert status.read_text().strip() == "0"
     finally:
         tmux.close()
@@ -95,16 +96,22 @@ def test_soaklog_dash_on_a_missing_file_says_so(tmp_path):
 LIVE_SCRIPT = """
 import logging, sys, threading, time
 from pathlib import Path
-sys.path.insert(0, {fixtures!r})
-from dashfixtures import LabRun
+sys.path.insert(0, {testkit_root!r})
+from testkit.lab import LabRun
 from soaklog.dashboard import run_dashboard_live
 
 # a handler on a stream of our own, as a terminal's would be: held while the dashboard runs
 logging.basicConfig(level=logging.INFO, stream=open({log!r}, "w", buffering=1), format="%(levelname)s %(message)s")
 run = LabRun(Path({tmp!r}), speed=30.0)
 stop = threading.Event()
-# a log line while the dashboard owns the terminal must not be written over the screen
-threading.Timer(3.0, lambda: logging.getLogger("soaklog.test").warning("MIDRUN-LOG-LINE")).start()
+# a log line while the dashboard owns the terminal must not be written over the screen: logged once the
+# test has seen the dashboard (it creates {go!r}), and {logged!r} says it has been logged
+def log_midrun():
+    while not stop.is_set() and not Path({go!r}).exists():
+        time.sleep(0.02)
+    logging.getLogger("soaklog.test").warning("MIDRUN-LOG-LINE")
+    Path({logged!r}).write_text("logged")
+threading.Thread(target=log_midrun, daemon=True).start()
 code = run_dashboard_live(run.database, stop_event=stop, header_note="demo at 30x")
 run.stop()
 Path({result!r}).write_text(f"{{code}} {{stop.is_set()}}")
@@ -115,8 +122,9 @@ def test_the_live_dashboard_runs_in_front_of_a_logger_in_the_same_process(tmp_pa
     result = tmp_path / "result"
     errors = tmp_path / "log"
     script = tmp_path / "live.py"
-    script.write_text(LIVE_SCRIPT.format(fixtures=str(Path(__file__).parent), tmp=str(tmp_path), result=str(result),
-                                         log=str(errors)))
+    go, logged = tmp_path / "go", tmp_path / "logged"
+    script.write_text(LIVE_SCRIPT.format(testkit_root=str(Path(__file__).resolve().parents[1]), tmp=str(tmp_path),
+                                         result=str(result), log=str(errors), go=str(go), logged=str(logged)))
     root = Path(__file__).resolve().parents[2]
     shell = f"cd {shlex.quote(str(root))} && {shlex.quote(sys.executable)} {shlex.quote(str(script))}"
     tmux = Tmux()
@@ -124,13 +132,12 @@ def test_the_live_dashboard_runs_in_front_of_a_logger_in_the_same_process(tmp_pa
         assert tmux.run("new-session", "-d", "-s", tmux.session, "-x", "120", "-y", "40", shell).returncode == 0
         shown = tmux.wait_for("[LIVE]", timeout_s=60)
         assert "demo at 30x" in shown and "Door corner" in shown
-        time.sleep(4.0)  # the script logs its line 3 s after the logger starts
+        go.write_text("go")  # the script logs its line now, while the dashboard shows
+        wait_for(logged.exists, 60, "the script's log line")
         assert "MIDRUN-LOG-LINE" not in tmux.screen()
         assert "MIDRUN-LOG-LINE" not in errors.read_text()  # held, not written while the dashboard shows
         tmux.run("send-keys", "-t", tmux.session, "q")
-        deadline = time.monotonic() + 30
-        while time.monotonic() < deadline and not result.exists():
-            time.sleep(0.1)
+        wait_for(result.exists, 60, "the script's result")
         # quitting the dashboard sets the stop event, so the caller stops its logger
         assert result.read_text() == "0 True"
         assert "WARNING MIDRUN-LOG-LINE" in errors.read_text()  # handed on after the dashboard closed

@@ -6,7 +6,8 @@ import socket
 from collections.abc import Callable, Iterator, Mapping
 
 import pytest
-from drivertools import BACKOFF, CHANNELS, LEAD_OHM, SCAN_MAP, SCAN_VALUES, TIMEOUT_S, ManualClock
+from testkit import ManualClock, closing_all
+from testkit.drivers import BACKOFF, CHANNELS, LEAD_OHM, SCAN_MAP, SCAN_VALUES, TIMEOUT_S
 
 from soaklog.drivers.scpi_meter import ScpiMeter
 from soaklog.simulators.dmm import DmmSimulator
@@ -21,41 +22,33 @@ def clock() -> ManualClock:
 @pytest.fixture
 def start_sim() -> Iterator[Callable[..., DmmSimulator]]:
     """Start a noiseless simulated meter (no thermal EMF, no integration time); closed afterwards."""
-    sims: list[DmmSimulator] = []
 
     def _start(
         plant: object | None = None, channel_map: Mapping[int, str] | None = None, **options: object
     ) -> DmmSimulator:
         settings: dict[str, object] = {"time_scale": 0.0, "noise_scale": 0.0, "thermal_emf_v": 0.0, "seed": 3}
         settings.update(options)
-        sim = DmmSimulator(
+        return DmmSimulator(
             plant if plant is not None else FixedPlant(SCAN_VALUES, lead_ohm=LEAD_OHM),  # type: ignore[arg-type]
             channel_map if channel_map is not None else SCAN_MAP,
             **settings,  # type: ignore[arg-type]
         ).start()
-        sims.append(sim)
-        return sim
 
-    yield _start
-    for sim in sims:
-        sim.close()
+    with closing_all(_start) as start:
+        yield start
 
 
 @pytest.fixture
 def make_meter(clock: ManualClock) -> Iterator[Callable[..., ScpiMeter]]:
     """Build a driver with short timeouts, the manual clock and a small back-off; closed afterwards."""
-    meters: list[ScpiMeter] = []
 
     def _make(resource: str, channels: tuple[str, ...] = CHANNELS, **options: object) -> ScpiMeter:
         settings: dict[str, object] = {"timeout_s": TIMEOUT_S, "clock": clock, "backoff": BACKOFF}
         settings.update(options)
-        meter = ScpiMeter("dmm1", resource, channels, **settings)  # type: ignore[arg-type]
-        meters.append(meter)
-        return meter
+        return ScpiMeter("dmm1", resource, channels, **settings)  # type: ignore[arg-type]
 
-    yield _make
-    for meter in meters:
-        meter.close()
+    with closing_all(_make) as make:
+        yield make
 
 
 @pytest.fixture

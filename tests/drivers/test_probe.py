@@ -13,7 +13,7 @@ from pathlib import Path
 
 import pytest
 import pyvisa
-from drivertools import CHANNELS, LEAD_OHM, SCAN_MAP, SCAN_VALUES
+from testkit.drivers import CHANNELS, LEAD_OHM, SCAN_MAP, SCAN_VALUES
 
 from soaklog.drivers.probe import FRONT, ProbeResult, format_probe, probe
 from soaklog.simulators.dmm import DmmSimulator

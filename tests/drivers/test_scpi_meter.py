@@ -27,7 +27,8 @@ from soaklog.drivers.scpi_meter import PROFILES, Backoff, ScpiMeter, _stream_sta
 from soaklog.simulators.dmm import TEST_CURRENT_A, DmmSimulator
 from soaklog.simulators.plant import OPEN_OHM, FixedPlant, Terminal
 
-from drivertools import BACKOFF, CHANNELS, LEAD_OHM, SCAN_MAP, SCAN_VALUES, TIMEOUT_S, ManualClock, wait_for
+from testkit import ManualClock, wait_for
+from testkit.drivers import BACKOFF, CHANNELS, LEAD_OHM, SCAN_MAP, SCAN_VALUES, TIMEOUT_S
 
 StartSim = Callable[..., DmmSimulator]
 MakeMeter = Callable[..., ScpiMeter]

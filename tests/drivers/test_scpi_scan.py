@@ -6,7 +6,7 @@ import math
 
 import numpy as np
 import pytest
-from drivertools import LEAD_OHM
+from testkit.drivers import LEAD_OHM
 from hypothesis import given, settings
 from hypothesis import strategies as st
 

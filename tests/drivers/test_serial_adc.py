@@ -14,6 +14,7 @@ import pytest
 import serial
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from testkit import ManualClock, closing_all
 
 from soaklog.clock import SystemClock
 from soaklog.config import StationConfig, parse_config
@@ -51,32 +52,22 @@ def plant() -> FixedPlant:
 
 @pytest.fixture
 def boards() -> Iterator[Callable[..., Board]]:
-    made: list[Board] = []
-
     def factory(inputs: list[str | None], **kwargs: object) -> Board:
         kwargs = {"rate_hz": 50.0, "noise_counts": 0.0, "seed": 11, "plant": plant()} | kwargs
-        board = AdcBoardSimulator(kwargs.pop("plant"), inputs, **kwargs).start()  # type: ignore[arg-type]
-        made.append(board)
-        return board
+        return AdcBoardSimulator(kwargs.pop("plant"), inputs, **kwargs).start()  # type: ignore[arg-type]
 
-    yield factory
-    for board in made:
-        board.close()
+    with closing_all(factory) as make:
+        yield make
 
 
 @pytest.fixture
 def drivers() -> Iterator[Callable[..., SerialAdc]]:
-    made: list[SerialAdc] = []
-
     def factory(port: str, inputs: list[str], **kwargs: object) -> SerialAdc:
         kwargs = {"timeout_s": 0.3, "rate_hz": 50.0, "backoff": (0.05, 0.2)} | kwargs
-        driver = SerialAdc("adc1", port, inputs, **kwargs)  # type: ignore[arg-type]
-        made.append(driver)
-        return driver
+        return SerialAdc("adc1", port, inputs, **kwargs)  # type: ignore[arg-type]
 
-    yield factory
-    for driver in made:
-        driver.close()
+    with closing_all(factory) as make:
+        yield make
 
 
 def paced(driver: SerialAdc, interval_s: float = 0.05) -> Iterator[list[RawReading]]:
@@ -421,21 +412,8 @@ def test_a_silent_board_fails_open_with_a_timeout(boards: Callable[..., Board], 
 # ---------------------------------------------------------------- back-off on the service clock
 
 
-class HandClock:
-    """A service clock that moves only when told."""
-
-    def __init__(self) -> None:
-        self.t_s = 1000.0
-
-    def utc_s(self) -> float:
-        return 1.8e9 + self.t_s
-
-    def monotonic_s(self) -> float:
-        return self.t_s
-
-
 def test_reconnects_back_off_doubling_to_the_cap(tmp_path: os.PathLike[str]) -> None:
-    clock = HandClock()
+    clock = ManualClock(start_s=1000.0)  # moves only when the test sets clock.t_s
     missing = os.path.join(tmp_path, "no-such-tty")
     driver = SerialAdc("adc1", missing, ["0"], clock=clock, backoff=(0.1, 0.4))
     with pytest.raises(ConnectionLost):

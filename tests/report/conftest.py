@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import pytest
-from reporttools import SimRun, build_sim_store
+from testkit.report import SimRun, build_sim_store
 
 
 @pytest.fixture(scope="session")

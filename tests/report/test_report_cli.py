@@ -52,7 +52,7 @@ def test_a_missing_database_exits_1_with_one_line(tmp_path: Path) -> None:
 
 
 def test_a_bad_profile_exits_2(tmp_path: Path) -> None:
-    from reporttools import build_sim_store
+    from testkit.report import build_sim_store
 
     run = build_sim_store(tmp_path / "sim.db", door_s=None)
     bad = tmp_path / "bad.toml"

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from reporttools import grid, piecewise
+from testkit.report import grid, piecewise
 
 from soaklog.report.conformance import analyse, side_states, window_rates
 from soaklog.profile import parse_profile

@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from reporttools import DOOR_S, SIM_CYCLES, T0_MS, SimRun
+from testkit.report import DOOR_S, SIM_CYCLES, T0_MS, SimRun
 
 from soaklog.report import make_report
 from soaklog.report.build import TABLE_COLUMNS, ReportResult

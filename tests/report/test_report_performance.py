@@ -12,7 +12,7 @@ import math
 
 import numpy as np
 import pytest
-from reporttools import grid
+from testkit.report import grid
 
 from soaklog.report.performance import chamber_performance, stable_mask, stable_period
 

@@ -13,7 +13,7 @@ import time
 from pathlib import Path
 
 import pytest
-from conftest import wait_for
+from testkit import wait_for
 
 from soaklog.demo import demo_config_text
 

@@ -6,7 +6,7 @@ import bisect
 from collections import defaultdict
 
 import numpy as np
-from conftest import EPOCH_UTC_S, wait_for
+from testkit import EPOCH_UTC_S, wait_for
 
 from soaklog.store import StoreReader
 
@@ -20,7 +20,7 @@ def test_stored_temperatures_agree_with_the_truth_within_their_uncertainty(lab_r
     and leads and self-heating are simulated; the logger knows only the class,
     the wiring and the data-sheet dissipation constant.
     """
-    run = lab_run(speed=30.0)
+    run = lab_run(speed=30.0, truth=True)
     wait_for(lambda: run.service.stats.stored >= 150, 60, "150 stored readings")
     run.service.stop()
     truth = defaultdict(list)

@@ -18,6 +18,7 @@ import pyvisa
 import pytest
 from hypothesis import given
 from hypothesis import strategies as st
+from testkit import wait_for
 from pyvisa.constants import StatusCode
 
 from soaklog.simulators.dmm import DmmSimulator
@@ -113,14 +114,6 @@ def open_session(rm: pyvisa.ResourceManager, sim: DmmSimulator, timeout_ms: int)
 
 def values(reply: str) -> list[float]:
     return [float(v) for v in reply.split(",")]
-
-
-def wait_for(condition: Callable[[], bool], timeout_s: float = 2.0) -> None:
-    deadline = time.monotonic() + timeout_s
-    while not condition():
-        if time.monotonic() > deadline:
-            raise AssertionError("condition not met before the deadline")
-        time.sleep(0.005)
 
 
 # --- identity and IEEE 488.2 common commands ---------------------------------

@@ -1,10 +1,9 @@
 """Helpers for the dashboard tests: a store with known readings written through the real writer,
-a frozen clock, a reader that adds alarm rows, the screen as text, and the simulated lab with the logger."""
+its frozen "now", and the screen as text (the lab run is ``testkit.lab.LabRun``)."""
 
 from __future__ import annotations
 
 import io
-import time
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -12,6 +11,8 @@ from typing import Any
 import numpy as np
 from rich.console import Console
 from textual.app import App
+
+from testkit.clocks import frozen_clock as _frozen_clock
 
 from soaklog.store import SampleBatch, StoreWriter, status_code
 from soaklog.store import AlarmRow as StoredAlarm
@@ -174,7 +175,8 @@ def write_fixture(path: Path) -> dict[str, int]:
 
 
 def frozen_clock(now_ms: int = NOW_MS) -> Callable[[], float]:
-    return lambda: now_ms / 1000.0
+    """A wall clock stopped at the fixture's "now" (or at ``now_ms``)."""
+    return _frozen_clock(now_ms)
 
 
 def screen_text(app: App[Any]) -> str:
@@ -184,52 +186,3 @@ def screen_text(app: App[Any]) -> str:
                       record=True, legacy_windows=False, safe_box=False)
     console.print(app.screen._compositor.render_update(full=True))
     return console.export_text()
-
-
-async def wait_until(pilot: Any, condition: Callable[[], bool], *, timeout_s: float = 10.0,
-                     what: str = "condition") -> None:
-    """Let the app run until ``condition`` holds (a deadline, not a sleep)."""
-    deadline = time.monotonic() + timeout_s
-    while not condition():
-        if time.monotonic() > deadline:
-            raise AssertionError(f"timed out waiting for {what}")
-        await pilot.pause(0.02)
-
-
-class LabRun:
-    """The simulated lab and the real logger writing into ``tmp_path`` (as the demo runs them)."""
-
-    EPOCH_UTC_S = 1_800_000_000.0
-
-    def __init__(self, tmp_path: Path, speed: float = 30.0) -> None:
-        from soaklog.clock import AcceleratedClock
-        from soaklog.demo import build_demo_config
-        from soaklog.service import Service
-        from soaklog.simulators.lab import Lab
-
-        self.lab = Lab(speed=speed, board_link=str(tmp_path / "board"), control_port=None).start()
-        addr = self.lab.addresses()
-        self.config = build_demo_config(addr.meter_resource or "", str(tmp_path / "board"),
-                                        str(tmp_path / "station.db"), where=str(tmp_path / "demo.toml"))
-        self.clock = AcceleratedClock(self.lab.world.clock, speed=speed, epoch_utc_s=self.EPOCH_UTC_S)
-        self.service = Service(self.config, clock=self.clock, new_run=True)
-        self.run_id = self.service.start()
-        self._stopped = False
-
-    @property
-    def database(self) -> str:
-        return self.config.database
-
-    def stop(self) -> None:
-        if not self._stopped:
-            self._stopped = True
-            self.service.stop()
-            self.lab.close()
-
-
-def wait_for(condition: Callable[[], bool], timeout_s: float = 30.0, what: str = "condition") -> None:
-    deadline = time.monotonic() + timeout_s
-    while not condition():
-        if time.monotonic() > deadline:
-            raise AssertionError(f"timed out waiting for {what}")
-        time.sleep(0.05)
