@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 
 import pytest
-from alarmlab import wait_for
+from testkit import wait_for
 
 from soaklog.alarms import AlarmEngine, Rule, Sample
 from soaklog.config import ConfigProblems, parse_config
