@@ -2,7 +2,9 @@
 
 The simulated instrument is the "Larchmere Instruments LM-2470", an invented
 maker and model. It measures 2-wire (``RESistance``) and 4-wire
-(``FRESistance``) resistance on five ranges, drives the range's test current
+(``FRESistance``) resistance on five ranges, and DC volts (``VOLTage:DC``,
+100 mV … 1000 V: a thermocouple's emf from a plant that has ``emf_v``; an
+open thermocouple reads as an overload), drives the range's test current
 through the sensor (so a Pt1000 on a 1 mA range self-heats), integrates for a
 number of power-line cycles (noise falls, reading time grows) and scans the
 channels of a multiplexer card, each wired to one sensor of a ``Plant``.
@@ -73,9 +75,11 @@ SCPI_VERSION = "1999.0"
 #: a line this long without a newline is thrown away with -363
 MAX_INPUT_BYTES = 1 << 16
 
-Function = Literal["RES", "FRES"]
-_FUNCTION_NAMES: dict[Function, str] = {"RES": "RESistance", "FRES": "FRESistance"}
-_WIRING: dict[Function, int] = {"RES": 2, "FRES": 4}
+Function = Literal["RES", "FRES", "VOLT"]
+_FUNCTION_NAMES: dict[Function, str] = {"RES": "RESistance", "FRES": "FRESistance", "VOLT": "VOLTage[:DC]"}
+_WIRING: dict[Function, int] = {"RES": 2, "FRES": 4, "VOLT": 2}
+#: the DC volts ranges, in V (thermocouples read on the 100 mV range)
+RANGES_V: tuple[float, ...] = (0.1, 1.0, 10.0, 100.0, 1000.0)
 
 
 @dataclass
@@ -93,14 +97,23 @@ class _Channel:
     function: Function = "FRES"
     res: _Settings = field(default_factory=_Settings)
     fres: _Settings = field(default_factory=_Settings)
+    volt: _Settings = field(default_factory=lambda: _Settings(range_ohm=RANGES_V[0]))  # its range in V
     current_a: float = 0.0  # the test current of the last reading
 
     def settings(self, function: Function | None = None) -> _Settings:
-        return self.fres if (function or self.function) == "FRES" else self.res
+        f = function or self.function
+        return self.fres if f == "FRES" else self.volt if f == "VOLT" else self.res
 
 
 def _noise_ppm(nplc: float) -> float:
     return NOISE_PPM_AT_10_PLC * math.sqrt(10.0 / nplc)
+
+
+def _range_for_v(value_v: float) -> float:
+    """The smallest DC volts range that holds ``value_v``."""
+    if not (0.0 <= value_v <= RANGES_V[-1] * OVER_RANGE):
+        raise ScpiError(-222, f"range {value_v:g} V; ranges are 100 mV to 1000 V")
+    return next((r for r in RANGES_V if value_v <= r), RANGES_V[-1])
 
 
 def _range_for(value_ohm: float) -> float:
@@ -648,7 +661,7 @@ class DmmSimulator:
 
     def _configure(self, function: Function, params: Sequence[str]) -> None:
         positional, channels = self._split_channels(params, 2)
-        auto, range_ohm = self._parse_range(positional[0] if positional else "")
+        auto, range_ohm = self._parse_range(positional[0] if positional else "", function)
         targets = self._targets(channels)
         resolution = positional[1] if len(positional) > 1 else ""
         nplc = self._nplc_for_resolution(resolution, range_ohm or self._present_range(targets, function))
@@ -669,19 +682,22 @@ class DmmSimulator:
         return self._channels[targets[0]].settings(function).range_ohm
 
     @staticmethod
-    def _parse_range(token: str) -> tuple[bool, float | None]:
+    def _parse_range(token: str, function: Function = "FRES") -> tuple[bool, float | None]:
         """(autorange, fixed range or None) from a CONFigure range parameter."""
         if not token.strip():
             return True, None
-        value = scpi.parse_numeric(token, unit="OHM", keywords=("MINimum", "MAXimum", "DEFault", "AUTO"))
+        volts = function == "VOLT"
+        ranges = RANGES_V if volts else RANGES_OHM
+        value = scpi.parse_numeric(token, unit="V" if volts else "OHM",
+                                   keywords=("MINimum", "MAXimum", "DEFault", "AUTO"))
         if value in ("DEF", "AUTO"):
             return True, None
         if value == "MIN":
-            return False, RANGES_OHM[0]
+            return False, ranges[0]
         if value == "MAX":
-            return False, RANGES_OHM[-1]
+            return False, ranges[-1]
         assert isinstance(value, float)
-        return False, _range_for(value)
+        return False, _range_for_v(value) if volts else _range_for(value)
 
     @staticmethod
     def _nplc_for_resolution(token: str, range_ohm: float) -> float:
@@ -734,11 +750,13 @@ class DmmSimulator:
         positional, channels = self._split_channels(params, 1)
         if not positional:
             raise ScpiError(-109)
-        value = scpi.parse_numeric(positional[0], unit="OHM")
+        volts = function == "VOLT"
+        value = scpi.parse_numeric(positional[0], unit="V" if volts else "OHM")
+        ranges = RANGES_V if volts else RANGES_OHM
         if isinstance(value, str):
-            range_ohm = {"MIN": RANGES_OHM[0], "MAX": RANGES_OHM[-1], "DEF": RANGE_DEFAULT_OHM}[value]
+            range_ohm = {"MIN": ranges[0], "MAX": ranges[-1], "DEF": ranges[0] if volts else RANGE_DEFAULT_OHM}[value]
         else:
-            range_ohm = _range_for(value)
+            range_ohm = _range_for_v(value) if volts else _range_for(value)
         for n in self._targets(channels):
             s = self._channels[n].settings(function)
             s.range_ohm = range_ohm
@@ -864,9 +882,32 @@ class DmmSimulator:
         except KeyError:
             raise ScpiError(-241, f"channel {number} ({self._map[number]!r}) is missing from the plant") from None
 
+    def _measure_volts(self, number: int) -> tuple[float, float]:
+        """One DC volts reading (a thermocouple's emf at the card's terminals) and its seconds."""
+        ch = self._channels[number]
+        s = ch.settings("VOLT")
+        ch.current_a = 0.0
+        emf = getattr(self._plant, "emf_v", None)
+        if emf is None:
+            raise ScpiError(-241, f"channel {number} ({self._map[number]!r}) has no voltage in this plant")
+        try:
+            e = float(emf(self._map[number]))
+        except KeyError:
+            raise ScpiError(-241, f"channel {number} ({self._map[number]!r}) is missing from the plant") from None
+        seconds = s.nplc / self._line_hz
+        if s.auto and math.isfinite(e):
+            s.range_ohm = next((r for r in RANGES_V if abs(e) <= r * OVER_RANGE), RANGES_V[-1])
+        if not (math.isfinite(e) and abs(e) <= s.range_ohm * OVER_RANGE):
+            return math.inf, seconds  # an open thermocouple floats to an overload (the burnout check)
+        if self._noise_scale > 0:
+            e += float(self._rng.normal(0.0, self._noise_scale * _noise_ppm(s.nplc) * 1e-6 * s.range_ohm))
+        return e, seconds
+
     def _measure_channel(self, number: int) -> tuple[float, float]:
         """One reading of one channel and the simulated seconds it took."""
         ch = self._channels[number]
+        if ch.function == "VOLT":
+            return self._measure_volts(number)
         s = ch.settings()
         wiring = _WIRING[ch.function]
         if s.auto:

@@ -16,7 +16,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Protocol
 
-__all__ = ["Plant", "Terminal", "FixedPlant", "OPEN_OHM"]
+__all__ = ["Plant", "VoltagePlant", "Terminal", "FixedPlant", "OPEN_OHM"]
 
 #: what an open sensor looks like at the terminals
 OPEN_OHM = math.inf
@@ -58,6 +58,14 @@ class Plant(Protocol):
         ...
 
 
+class VoltagePlant(Protocol):
+    """A plant whose inputs may also be voltages (thermocouples): what a meter's DC volts function reads."""
+
+    def emf_v(self, channel: str) -> float:
+        """The emf at the terminals in V; ``math.inf`` for an open thermocouple."""
+        ...
+
+
 class FixedPlant:
     """A plant with fixed sensor resistances, for instrument tests.
 
@@ -78,6 +86,11 @@ class FixedPlant:
     def set(self, channel: str, ohm: float) -> None:
         with self._lock:
             self._values[channel] = ohm
+
+    def emf_v(self, channel: str) -> float:
+        """The voltage at a volts input: the channel's value taken as volts (a thermocouple's emf)."""
+        with self._lock:
+            return self._values[channel]
 
     def terminal(self, channel: str, *, wiring: int, current_a: float) -> Terminal:
         with self._lock:
