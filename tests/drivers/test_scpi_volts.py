@@ -29,7 +29,7 @@ def test_volts_channels_are_configured_and_read_beside_resistance(start_sim, mak
 
 
 def test_a_station_with_a_thermocouple_reads_it_through_its_cold_junction(start_sim) -> None:
-    from drivertools import ManualClock
+    from testkit import ManualClock
 
     from soaklog.config import parse_config
     from soaklog.pipeline import Pipeline
