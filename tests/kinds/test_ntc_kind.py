@@ -94,3 +94,78 @@ def test_a_range_that_over_ranges_the_cold_end_is_pointed_out() -> None:
     # R(−40 °C) ≈ 402 kΩ (test_ntc_curve.py) on a 100 kΩ range: the meter over-ranges when cold
     cfg = parse_config(STATION.format(keys=BETA).replace("range_ohm = 1000000.0", "range_ohm = 100000.0"))
     assert any("over-ranges below" in w for w in cfg.warnings), cfg.warnings
+
+
+def test_a_station_file_mixes_pt_ntc_thermocouple_and_sprt() -> None:
+    """The issue's "done when": one station with each kind; check gives each channel's uncertainty."""
+    text = """
+[station]
+name = "lab"
+[[instrument]]
+name = "dmm"
+driver = "scpi"
+resource = "TCPIP0::127.0.0.1::5025::SOCKET"
+range_ohm = 1000.0
+[[sensor]]
+name = "pt"
+class = "A"
+[[sensor]]
+name = "bead"
+type = "ntc"
+r25_ohm = 10000.0
+beta_k = 3950.0
+r25_tolerance_pct = 1.0
+[[sensor]]
+name = "k"
+type = "thermocouple"
+tc_type = "K"
+class = 1
+[[sensor]]
+name = "ref"
+type = "sprt"
+r_tpw_ohm = 25.5
+below = { subrange = 4, a = -1.2e-4, b = -3e-6 }
+above = { subrange = 7, a = -1.1e-4, b = 1.5e-5, c = -2e-6 }
+calibration = { certificate = "C-1", expanded_uncertainty_c = 0.003 }
+[[channel]]
+name = "block"
+instrument = "dmm"
+input = "101"
+sensor = "pt"
+[[channel]]
+name = "bead"
+instrument = "dmm"
+input = "102"
+sensor = "bead"
+range_ohm = 1000000.0
+[[channel]]
+name = "tc"
+instrument = "dmm"
+input = "103"
+sensor = "k"
+cold_junction = { channel = "block" }
+[[channel]]
+name = "reference"
+instrument = "dmm"
+input = "104"
+sensor = "ref"
+"""
+    cfg = parse_config(text)
+    rep = check_report(cfg)
+    for ch in rep["channels"]:
+        at_100 = next(u for u in ch["uncertainty_at"] if u["t_c"] == 100.0)
+        assert at_100["expanded_uncertainty_c"] is not None, ch["name"]
+    ref = next(c for c in rep["channels"] if c["name"] == "reference")
+    assert next(u for u in ref["uncertainty_at"] if u["t_c"] == 100.0)["expanded_uncertainty_c"] == pytest.approx(0.003)
+
+
+@pytest.mark.parametrize(("keys", "where", "words"), [
+    ("r_tpw_ohm = 25.5", "sensor[1]", "deviation function"),
+    ("r_tpw_ohm = 25.5\nabove = { subrange = 10, a = 1e-4, b = 1e-5 }", "sensor[1].above", "no coefficient b"),
+    ("above = { subrange = 7, a = 1e-4 }", "sensor[1].r_tpw_ohm", "is required"),
+])
+def test_sprt_keys_are_checked_by_file_and_key(keys, where, words) -> None:
+    text = STATION.format(keys="").replace('type = "ntc"', f'type = "sprt"\n{keys}')
+    with pytest.raises(ConfigProblems) as info:
+        parse_config(text, "/lab/bench.toml")
+    assert any(k == where and words in m for k, m in info.value.problems), info.value.problems
