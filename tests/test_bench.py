@@ -46,3 +46,11 @@ def test_bench_json_has_every_contract_key():
     assert base_mb < 40
     # launch to a stored reading includes the imports of the same commands (a run starts with them)
     assert result["cli_run_first_reading_s"] > result["cli_run_imports_s"]
+
+
+def test_the_thermocouple_inverse_figure_is_measured_against_its_baseline() -> None:
+    from soaklog.bench import bench_thermocouple
+
+    r = bench_thermocouple(n=100_000, repeats=1)
+    assert r["tc_inverse_values"] == 100_000
+    assert r["tc_inverse_values_per_s"] > 0 and r["tc_inverse_ratio_vs_numpy"] > 0

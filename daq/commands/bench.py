@@ -56,6 +56,8 @@ def run(args: argparse.Namespace) -> int:
          f"commits every {f('cli_run_commit_interval_s', 'g')} s", ""),
         ("conversion, 10 M values over -200…850 °C", f"{f('convert_values_per_s', ',.0f')} /s",
          f"{f('convert_ratio_vs_numpy', '.2f')} × bare numpy quadratic (exact ≥ 0 °C only)", "≥ 0.5 ×"),
+        ("thermocouple inverse, 10 M type K values over 0…500 °C", f"{f('tc_inverse_values_per_s', ',.0f')} /s",
+         f"{f('tc_inverse_ratio_vs_numpy', '.2f')} × bare numpy polynomial of the same degree (±0.05 K)", "—"),
         ("ingest: parse → pipeline → store", f"{f('ingest_readings_per_s', ',.0f')} readings/s",
          f"{f('ingest_ratio_vs_executemany', '.2f')} × bare executemany, same rows and schema", "≥ 100 000/s, ≥ 0.5 ×"),
         ("storage per reading (rollups, index)", f"{f('bytes_per_reading', '.1f')} bytes", "", "≤ 40"),
