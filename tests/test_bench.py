@@ -22,7 +22,7 @@ STARTUP = ("version", "convert", "run_first_reading", "run_imports")
 def test_bench_json_has_every_contract_key():
     p = subprocess.run(
         [sys.executable, "-m", "soaklog", "bench", "--quick", "--json"],
-        capture_output=True, text=True, timeout=300,
+        capture_output=True, text=True, timeout=600,
     )
     assert p.returncode == 0, p.stderr
     result = json.loads(p.stdout)
