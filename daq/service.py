@@ -431,6 +431,7 @@ class Service:
             requests = store.pending_operator_actions()
         except StorageError:
             requests = []
+        outcomes: list[tuple[int, str]] = []
         for req in requests:
             duration = None
             if req.until_ms is not None:
@@ -445,12 +446,16 @@ class Service:
                 self._events_out.append(EventRow(
                     int(now_s * 1000), "operator_request", f"{req.kind} {req.target or '*'}{who}: {res.outcome}",
                     "info", None, {"request": req.id}))
-            try:
-                store.mark_operator_action(int(req.id), now_ms=int(now_s * 1000), outcome=outcome)
-            except StorageError as exc:
-                log.error("%s", exc)
+            outcomes.append((int(req.id), outcome))
         self._record_outcomes()
         self._flush_alarms(store, run_id)
+        # a request is marked applied only once the states and events it changed are stored: a viewer that
+        # sees "applied" (`soaklog ack --wait`, the dashboard) then reads the new states, never the old ones
+        for req_id, outcome in outcomes:
+            try:
+                store.mark_operator_action(req_id, now_ms=int(now_s * 1000), outcome=outcome)
+            except StorageError as exc:
+                log.error("%s", exc)
 
     def _record_outcomes(self) -> None:
         if self.actions is None:

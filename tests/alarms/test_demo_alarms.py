@@ -26,8 +26,9 @@ def test_the_demo_runaway_trips_interlocks_and_recovers(tmp_path):
     assert summary["tripped_at_s"] is not None and summary["tripped_at_s"] <= 30.0 * DEFAULT_SPEED
     assert summary["recovered_at_s"] is not None and summary["recovered_at_s"] > summary["tripped_at_s"]
     assert "OUTPut OFF" in summary["supply_received"] and summary["heater_supply_on"] is False
-    # the chamber's own cut-out (155 °C) was not needed; the air peaked a few kelvin over the 140 °C trip
-    assert summary["peak_air_c"] < 150.0
+    # whether the interlock beats the chamber's own cut-out (155 °C) is a race with the chamber, decided at 120x
+    # by the machine's lag (0.5 s of it is a minute of chamber heating): test_service_alarms.py runs that race
+    # with the chamber slowed, so this test checks only what does not depend on the machine's speed
     kinds = [k for k, _ in summary["events"]]
     assert kinds.index("alarm_raised") < kinds.index("action_done") < kinds.index("alarm_cleared")
     assert "ALARM  [high] air-supply" in text and "ACTION heater supply off" in text and "RECOVERED" in text

@@ -66,6 +66,16 @@ class LabRun:
         """The simulated chamber time (seconds since the lab started)."""
         return float(self.lab.world.clock.now_s())
 
+    def set_chamber_speed(self, speed: float) -> None:
+        """Run the simulated chamber at ``speed`` from now on (no jump in its time).
+
+        The logger's clock keeps waiting ``interval / self.speed`` at a time and looks again, so a chamber
+        slowed below ``self.speed`` is followed exactly (a few more wake-ups per scan). A test slows the
+        chamber where it races the logger, so a loaded machine's lag costs the chamber seconds, not minutes.
+        """
+        assert speed <= self.speed, "the logger's clock oversleeps a chamber faster than the speed it started with"
+        self.lab.world.clock.set_speed(speed)  # type: ignore[attr-defined]
+
     def truth(self) -> list[dict[str, object]]:
         assert self.truth_path is not None, "start the LabRun with truth=True"
         return [json.loads(line) for line in self.truth_path.read_text().splitlines() if line.strip()]
