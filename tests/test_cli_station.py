@@ -23,10 +23,8 @@ def soaklog(*args: str, timeout: float = 120) -> subprocess.CompletedProcess[str
 
 
 @pytest.fixture(scope="module")
-def demo_db(tmp_path_factory) -> Path:
-    db = tmp_path_factory.mktemp("demo") / "demo.db"
-    p = soaklog("demo", "--headless", "--duration", "6", "--db", str(db))
-    assert p.returncode == 0, p.stderr
+def demo_db(short_demo) -> Path:
+    db, p = short_demo  # the session's one short demo (tests/conftest.py)
     assert str(db) in p.stdout
     assert "soaklog status --db" in p.stdout  # tells the user what to run next
     assert "not a safety device" in p.stdout

@@ -44,7 +44,8 @@ def test_the_demo_runaway_trips_interlocks_and_recovers(tmp_path):
 
 
 def test_the_demo_without_a_runaway_raises_no_alarm(tmp_path):
-    summary = run_demo(database=str(tmp_path / "demo.db"), duration_s=10.0, speed=120.0, out=lambda s: None,
+    # 7 s at 120x: 14 min of chamber time, past the first ramp's top (125 °C at 10 min) and its overshoot
+    summary = run_demo(database=str(tmp_path / "demo.db"), duration_s=7.0, speed=120.0, out=lambda s: None,
                        runaway_at_s=None)
     assert summary["tripped_at_s"] is None
     assert not [k for k, _ in summary["events"] if k == "alarm_raised"]

@@ -24,11 +24,8 @@ def test_the_parser_has_help_and_the_documented_options() -> None:
     assert (a.db, a.run, a.profile, a.out, a.source) == ("x.db", 3, "p.toml", "o", "auto")
 
 
-def test_report_after_a_short_demo(tmp_path: Path) -> None:
-    db = tmp_path / "demo.db"
-    demo = subprocess.run([sys.executable, "-m", "soaklog", "demo", "--headless", "--duration", "8", "--db", str(db)],
-                          capture_output=True, text=True, timeout=120)
-    assert demo.returncode == 0, demo.stderr
+def test_report_after_a_short_demo(short_demo, tmp_path: Path) -> None:
+    db, _ = short_demo  # the session's one short demo (tests/conftest.py)
     out = tmp_path / "report"
     p = subprocess.run(REPORT + ["--db", str(db), "--out", str(out)], capture_output=True, text=True,
                        timeout=120)

@@ -69,8 +69,10 @@ def test_kill_9_many_times_loses_at_most_a_commit_interval_and_continues_the_run
         proc = subprocess.Popen([sys.executable, "-m", "soaklog", "run", str(cfg)],
                                 stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
         before = _count(db)
-        wait_for(lambda: _count(db) >= before + 16, 30, "the logger storing readings")
+        # one scan of each instrument (5 meter and 3 board channels) stored: the logger is running
+        wait_for(lambda: _count(db) >= before + 8, 60, "the logger storing readings")
         time.sleep(rng.uniform(0.2, 1.5))  # a random moment, not a wait for a condition
+        committed = _count(db)  # what the logger had committed a moment before the kill
         proc.send_signal(signal.SIGKILL)
         proc.wait(timeout=10)
         killed_at = time.time()
@@ -78,15 +80,17 @@ def test_kill_9_many_times_loses_at_most_a_commit_interval_and_continues_the_run
             assert c.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
             last_ms = c.execute("SELECT MAX(t_ms) FROM samples").fetchone()[0]
             runs = c.execute("SELECT COUNT(*) FROM runs").fetchone()[0]
+            stored = c.execute("SELECT COUNT(*) FROM samples").fetchone()[0]
         assert runs == 1
-        # commits come every 1 s and scans every 1 s: what a kill loses is the
-        # last commit interval (plus the scan in flight and process start-up slack)
-        assert killed_at - last_ms / 1000.0 <= 1.0 + 1.0 + 1.0, f"kill {k}: {killed_at - last_ms / 1000.0:.2f} s lost"
+        assert stored >= committed, f"kill {k}: committed readings lost"  # exact, whatever the machine's speed
+        # commits come every 1 s and scans every 1 s: what a kill loses is the last commit interval plus the
+        # scan in flight; the rest is slack for a loaded machine (generous, common practice, no published source)
+        assert killed_at - last_ms / 1000.0 <= 1.0 + 1.0 + 3.0, f"kill {k}: {killed_at - last_ms / 1000.0:.2f} s lost"
     # the last start: stops cleanly on SIGTERM
     proc = subprocess.Popen([sys.executable, "-m", "soaklog", "run", str(cfg)],
                             stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     before = _count(db)
-    wait_for(lambda: _count(db) >= before + 8, 30, "the logger storing readings")
+    wait_for(lambda: _count(db) >= before + 8, 60, "the logger storing readings")
     proc.send_signal(signal.SIGTERM)
     assert proc.wait(timeout=30) == 0
     with sqlite3.connect(db) as c:
