@@ -6,6 +6,7 @@ import sqlite3
 
 import numpy as np
 import pytest
+from testkit.store import old_store
 
 from soaklog.errors import StorageError
 from soaklog.store import STATUS_CODES, SampleBatch, StoreReader, StoreWriter
@@ -174,15 +175,8 @@ def test_events_view(store):
 
 def test_a_version_2_file_upgrades_and_its_totals_come_from_the_rollups(tmp_path):
     """Migration 3 adds running totals to an existing file and fills them from its minute rollups."""
-    from soaklog.store.schema import MIGRATIONS, statements
-
     p = tmp_path / "old.db"
-    conn = sqlite3.connect(p, isolation_level=None)
-    for version, sql in MIGRATIONS[:2]:
-        for stmt in statements(sql):
-            conn.execute(stmt)
-        conn.execute(f"PRAGMA user_version = {version}")
-    conn.execute("INSERT INTO runs (id, started_utc, config, config_sha256) VALUES (1, 'x', 'c', 'h')")
+    conn = old_store(p, 2)
     conn.execute("INSERT INTO channels (id, run_id, name) VALUES (1, 1, 't1')")
     conn.executemany(
         "INSERT INTO rollup_1m (ch, minute, n, n_bad, t_min, t_max, t_sum, u_max) VALUES (1, ?, ?, ?, ?, ?, ?, ?)",
@@ -267,16 +261,9 @@ def test_readings_view_names_every_flag_and_withholds_what_it_must(store):
 
 
 def test_a_version_4_file_gains_flags_and_t_ms_and_the_migration_runs_twice(tmp_path):
-    from soaklog.store.schema import MIGRATIONS, statements
-
     p = tmp_path / "v4.db"
-    conn = sqlite3.connect(p, isolation_level=None)
-    for version, sql in MIGRATIONS[:4]:
-        for stmt in statements(sql):
-            conn.execute(stmt)
-        conn.execute(f"PRAGMA user_version = {version}")
+    conn = old_store(p, 4)
     conn.execute("INSERT INTO statuses (code, name) VALUES (0, 'ok')")
-    conn.execute("INSERT INTO runs (id, started_utc, config, config_sha256) VALUES (1, 'x', 'c', 'h')")
     conn.execute("INSERT INTO channels (id, run_id, name) VALUES (1, 1, 't1')")
     # written by an older soaklog: flag bit 8 (no_sensor_spec) and U stored as 0
     conn.execute(f"INSERT INTO samples (ch, t_ms, raw, temp_uc, u_e4, status, flags) VALUES (1, {T0}, 100.0, 0, 0, 0, 8)")

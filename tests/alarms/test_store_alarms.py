@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
-import sqlite3
 from dataclasses import replace
 
 import pytest
+from testkit.store import old_store
 
 from soaklog.errors import StorageError
 from soaklog.store import AlarmRow, EventRow, StoreReader, StoreWriter
@@ -21,15 +21,10 @@ def _store(tmp_path):
 
 
 def test_a_schema_3_file_gets_the_alarm_table_and_reads_no_alarms(tmp_path):
-    from soaklog.store.schema import MIGRATIONS, SCHEMA_VERSION, statements
+    from soaklog.store.schema import SCHEMA_VERSION
 
     p = tmp_path / "old.db"
-    conn = sqlite3.connect(p, isolation_level=None)
-    for version, sql in MIGRATIONS[:3]:
-        for stmt in statements(sql):
-            conn.execute(stmt)
-        conn.execute(f"PRAGMA user_version = {version}")
-    conn.execute("INSERT INTO runs (id, started_utc, config, config_sha256) VALUES (1, 'x', 'c', 'h')")
+    conn = old_store(p, 3)
     conn.close()
     with StoreReader.open(p) as s:
         assert s.alarms(1) == []  # an old file read as it is: no alarm table yet

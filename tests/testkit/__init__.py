@@ -5,6 +5,7 @@
 - ``testkit.lab``: ``LabRun``, the simulated lab and the real logger in a folder (fixture ``lab_run`` in tests/conftest.py)
 - ``testkit.factories``: ``closing_all``, a fixture's factory that closes everything it made
 - ``testkit.drivers``, ``testkit.dashboard``, ``testkit.report``: the values and stores those folders' tests share
+- ``testkit.store``: ``old_store``, a file as an older soaklog wrote it (the migration tests)
 
 Import from here or from the module: ``from testkit import wait_for``. Never ``from conftest import …``: which
 conftest that names depends on the order of the folders on the command line.
